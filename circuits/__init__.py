@@ -1,0 +1,1 @@
+"""Bundled demo circuits (TOML files), installed as the package ``nodeterm.circuits``."""
