@@ -1,0 +1,327 @@
+"""The expression language of circuit files, parsed straight into SymPy objects.
+
+Written by hand (a tokenizer and a recursive-descent parser with precedence
+climbing) because the language must be closed: file text never reaches
+``eval``, ``exec``, ``sympify`` or ``parse_expr``, engineering numbers such as
+``4.7k`` or ``100nF`` need their own tokens, and every error must carry the
+column where it happened. SymPy's own parsers accept far more than we allow.
+
+The language::
+
+    expression := term (("+" | "-") term)*
+    term       := unary (("*" | "/") unary)*
+    unary      := ("+" | "-") unary | power
+    power      := atom (("^" | "**") unary)?          right-associative
+    atom       := NUMBER | NAME | "sqrt" "(" expression ")" | "pi" | "(" expression ")"
+    NUMBER     := digits [. digits] [e[+-]digits] [SI prefix] [unit]
+
+SI prefixes: p n u µ m k M G T (``m`` milli, ``M`` mega). Units (ignored for the
+value, kept for readability): Ω ohm F H V A S Hz.
+
+Limits keep hostile input from running for long: text length, nesting depth,
+size of exponents and of numeric literals.
+
+>>> parse_expression("4.7k")
+4700
+>>> parse_expression("2*R1 + 100nF", resolve=lambda n: __import__("sympy").Symbol(n))
+2*R1 + 1/10000000
+>>> parse_expression("1/(s*C)", resolve=lambda n: __import__("sympy").Symbol(n))
+1/(C*s)
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+from typing import Callable
+
+import sympy
+
+from .errors import InputError
+
+MAX_LENGTH = 10_000
+MAX_DEPTH = 64
+MAX_EXPONENT = 64
+MAX_LITERAL_DIGITS = 60
+MAX_LITERAL_EXPONENT = 300
+MAX_NUMBER_BITS = 20_000
+
+SI_PREFIXES = {
+    "p": sympy.Rational(1, 10**12),
+    "n": sympy.Rational(1, 10**9),
+    "u": sympy.Rational(1, 10**6),
+    "µ": sympy.Rational(1, 10**6),  # micro sign U+00B5
+    "μ": sympy.Rational(1, 10**6),  # Greek mu U+03BC
+    "m": sympy.Rational(1, 10**3),
+    "k": sympy.Integer(10**3),
+    "M": sympy.Integer(10**6),
+    "G": sympy.Integer(10**9),
+    "T": sympy.Integer(10**12),
+}
+UNITS = ("ohm", "Ω", "Hz", "F", "H", "V", "A", "S")
+
+Resolver = Callable[[str], "sympy.Expr | None"]
+
+
+class ExpressionError(InputError):
+    """An expression that does not parse, or names something unknown.
+
+    ``column`` is 1-based within the expression text.
+    """
+
+
+_NUMBER = re.compile(
+    r"(?P<mant>(?:\d+\.?\d*|\.\d+))(?P<exp>[eE][+-]?\d+)?"
+    r"(?P<prefix>[pnuµμmkMGT])?(?P<unit>ohm|Ω|Hz|F|H|V|A|S)?"
+)
+_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
+_OPERATORS = ("**", "+", "-", "*", "/", "^", "(", ")")
+
+
+@dataclass(frozen=True)
+class Token:
+    kind: str  # "num", "name", "op", "end"
+    text: str
+    column: int  # 1-based
+    value: sympy.Expr | None = None
+
+
+def _number_value(match: re.Match, column: int) -> sympy.Expr:
+    mant, exp, prefix = match.group("mant"), match.group("exp"), match.group("prefix")
+    if len(mant) > MAX_LITERAL_DIGITS:
+        raise ExpressionError(f"number {mant!r} has more than {MAX_LITERAL_DIGITS} digits",
+                              hint="write it with an exponent or an SI prefix", column=column)
+    value = sympy.Rational(mant)
+    if exp:
+        power = int(exp[1:])
+        if abs(power) > MAX_LITERAL_EXPONENT:
+            raise ExpressionError(f"exponent {exp[1:]} in {match.group(0)!r} is out of range "
+                                  f"(|exponent| <= {MAX_LITERAL_EXPONENT})",
+                                  hint="check the number", column=column)
+        value = value * sympy.Rational(10) ** power
+    if prefix:
+        value = value * SI_PREFIXES[prefix]
+    return value
+
+
+def tokenize(text: str) -> list[Token]:
+    """Split ``text`` into tokens, or raise :class:`ExpressionError` with a column.
+
+    >>> [t.text for t in tokenize("2.2kΩ*(a+b)^2")]
+    ['2.2kΩ', '*', '(', 'a', '+', 'b', ')', '^', '2', '']
+    """
+    if len(text) > MAX_LENGTH:
+        raise ExpressionError(f"expression is {len(text)} characters long (limit {MAX_LENGTH})",
+                              hint="split it into parameters", column=1)
+    tokens: list[Token] = []
+    i = 0
+    while i < len(text):
+        ch = text[i]
+        col = i + 1
+        if ch in " \t":
+            i += 1
+            continue
+        if ch.isdigit() or (ch == "." and i + 1 < len(text) and text[i + 1].isdigit()):
+            m = _NUMBER.match(text, i)
+            assert m is not None  # a digit always starts a number
+            end = m.end()
+            if end < len(text) and (text[end].isalnum() or text[end] in "_µμΩ."):
+                tail = _NAME.match(text, end)
+                bad = text[i:tail.end()] if tail else text[i:end + 1]
+                raise ExpressionError(
+                    f"cannot read number {bad!r}",
+                    hint="a number may be followed by one SI prefix (p n u µ m k M G T) and one unit "
+                         "(Ω ohm F H V A S Hz), e.g. 4.7k, 100nF, 2.2kohm; write * between a number and a name",
+                    column=col)
+            tokens.append(Token("num", m.group(0), col, _number_value(m, col)))
+            i = end
+            continue
+        if ch.isalpha() or ch == "_":
+            m = _NAME.match(text, i)
+            if m is None:  # a non-ASCII letter
+                raise ExpressionError(f"unexpected character {ch!r}",
+                                      hint="names use the letters A-Z, a-z, digits and _", column=col)
+            tokens.append(Token("name", m.group(0), col))
+            i = m.end()
+            continue
+        for op in _OPERATORS:
+            if text.startswith(op, i):
+                tokens.append(Token("op", op, col))
+                i += len(op)
+                break
+        else:
+            raise ExpressionError(f"unexpected character {ch!r}",
+                                  hint="expressions use numbers, names, + - * / ^ ( ) and sqrt()",
+                                  column=col)
+    tokens.append(Token("end", "", len(text) + 1))
+    return tokens
+
+
+class _Parser:
+    def __init__(self, text: str, resolve: Resolver) -> None:
+        self.text = text
+        self.tokens = tokenize(text)
+        self.pos = 0
+        self.resolve = resolve
+        self.depth = 0
+
+    @property
+    def tok(self) -> Token:
+        return self.tokens[self.pos]
+
+    def take(self) -> Token:
+        tok = self.tokens[self.pos]
+        self.pos += 1
+        return tok
+
+    def expect(self, op: str) -> None:
+        tok = self.tok
+        if tok.kind != "op" or tok.text != op:
+            found = "the end" if tok.kind == "end" else repr(tok.text)
+            raise ExpressionError(f"expected {op!r} but found {found}",
+                                  hint="check the brackets", column=tok.column)
+        self.pos += 1
+
+    def enter(self, column: int) -> None:
+        self.depth += 1
+        if self.depth > MAX_DEPTH:
+            raise ExpressionError(f"expression is nested more than {MAX_DEPTH} levels deep",
+                                  hint="simplify it or split it into parameters", column=column)
+
+    def parse(self) -> sympy.Expr:
+        if self.tok.kind == "end":
+            raise ExpressionError("empty expression", hint="write a value such as 10k", column=1)
+        value = self.expression()
+        if self.tok.kind != "end":
+            tok = self.tok
+            raise ExpressionError(f"unexpected {tok.text!r}",
+                                  hint="write an operator (+ - * / ^) between values", column=tok.column)
+        return value
+
+    def expression(self) -> sympy.Expr:
+        value = self.term()
+        while self.tok.kind == "op" and self.tok.text in "+-":
+            op = self.take().text
+            rhs = self.term()
+            value = value + rhs if op == "+" else value - rhs
+        return value
+
+    def term(self) -> sympy.Expr:
+        value = self.unary()
+        while self.tok.kind == "op" and self.tok.text in ("*", "/"):
+            op = self.take()
+            rhs = self.unary()
+            if op.text == "*":
+                value = value * rhs
+            else:
+                if rhs == 0:
+                    raise ExpressionError("division by zero", hint="check the divisor",
+                                          column=op.column)
+                value = value / rhs
+        return value
+
+    def unary(self) -> sympy.Expr:
+        tok = self.tok
+        if tok.kind == "op" and tok.text in "+-":
+            self.take()
+            self.enter(tok.column)
+            operand = self.unary()
+            self.depth -= 1
+            return -operand if tok.text == "-" else operand
+        return self.power()
+
+    def power(self) -> sympy.Expr:
+        base = self.atom()
+        tok = self.tok
+        if tok.kind == "op" and tok.text in ("^", "**"):
+            self.take()
+            self.enter(tok.column)
+            exponent = self.unary()
+            self.depth -= 1
+            if not exponent.is_Rational:
+                raise ExpressionError("an exponent must be a plain number",
+                                      hint="write e.g. R^2 or x^(1/2)", column=tok.column + len(tok.text))
+            if abs(exponent) > MAX_EXPONENT or (exponent.q > MAX_EXPONENT):
+                raise ExpressionError(f"exponent {exponent} is too large (limit {MAX_EXPONENT})",
+                                      hint="circuit values never need such powers; check the expression",
+                                      column=tok.column + len(tok.text))
+            if base.is_Rational and base != 0:
+                bits = max(abs(base.p).bit_length(), base.q.bit_length()) * abs(exponent)
+                if bits > MAX_NUMBER_BITS:
+                    raise ExpressionError("the number is too large to compute exactly",
+                                          hint="check the powers in the expression",
+                                          column=tok.column)
+            if base == 0 and exponent < 0:
+                raise ExpressionError("division by zero (0 to a negative power)", column=tok.column)
+            result = base ** exponent
+            if result.is_Number and not result.is_finite:
+                raise ExpressionError("the value is not finite", column=tok.column)
+            return result
+        return base
+
+    def atom(self) -> sympy.Expr:
+        tok = self.take()
+        if tok.kind == "num":
+            return tok.value
+        if tok.kind == "op" and tok.text == "(":
+            self.enter(tok.column)
+            value = self.expression()
+            self.expect(")")
+            self.depth -= 1
+            return value
+        if tok.kind == "name":
+            if tok.text == "sqrt":
+                if not (self.tok.kind == "op" and self.tok.text == "("):
+                    raise ExpressionError("sqrt must be followed by '('", hint="write sqrt(x)",
+                                          column=self.tok.column)
+                self.take()
+                self.enter(tok.column)
+                arg = self.expression()
+                self.expect(")")
+                self.depth -= 1
+                if arg.is_Number and arg < 0:
+                    raise ExpressionError("square root of a negative number", column=tok.column)
+                return sympy.sqrt(arg)
+            if self.tok.kind == "op" and self.tok.text == "(":
+                raise ExpressionError(f"{tok.text}() is not a function of the language",
+                                      hint="the only function is sqrt()", column=tok.column)
+            if tok.text == "pi":
+                return sympy.pi
+            if tok.text.startswith("__"):
+                raise ExpressionError(f"name {tok.text!r} is not allowed",
+                                      hint="names may not start with '__'", column=tok.column)
+            value = self.resolve(tok.text)
+            if value is None:
+                raise ExpressionError(f"unknown name {tok.text!r}",
+                                      hint="use a parameter of [parameters], V_<node>, I_<part> or s",
+                                      column=tok.column)
+            return value
+        if tok.kind == "end":
+            raise ExpressionError("expression ends too early", hint="complete the expression",
+                                  column=tok.column)
+        raise ExpressionError(f"unexpected {tok.text!r}",
+                              hint="expected a number, a name or '('", column=tok.column)
+
+
+def _no_names(name: str) -> None:
+    return None
+
+
+def parse_expression(text: str, resolve: Resolver = _no_names) -> sympy.Expr:
+    """Parse ``text`` into a SymPy expression.
+
+    Args:
+        text: the expression as written by the user.
+        resolve: maps a name to its SymPy value, or returns None if the name is unknown.
+
+    Raises:
+        ExpressionError: with the 1-based column of the problem.
+
+    >>> parse_expression("10^10^10")
+    Traceback (most recent call last):
+    ...
+    nodeterm.engine.expr.ExpressionError: <input> (column 4): error: exponent 10000000000 is too large (limit 64); circuit values never need such powers; check the expression
+    """
+    if not isinstance(text, str):
+        raise ExpressionError(f"expected text, got {type(text).__name__}", column=1)
+    return _Parser(text, resolve).parse()

@@ -1,0 +1,478 @@
+"""Load a circuit file (TOML) into a validated :class:`~.model.Circuit`.
+
+TOML itself is read by the standard library's ``tomllib``. It gives no line
+numbers, so :class:`_Lines` finds the line of each table and key by a light
+scan of the text: enough to point the user at the offending line.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+import tomllib
+from pathlib import Path
+
+import sympy
+
+from .errors import InputError, Warning
+from .expr import ExpressionError, parse_expression
+from .model import Circuit, FindItem, HandItem, Parameter
+from .parts import KINDS, Part
+from .symbols import I, V, param, s
+
+MAX_FILE_BYTES = 5_000_000
+MAX_PARTS = 20_000
+
+NODE_RE = re.compile(r"^[A-Za-z0-9_]+$")
+ID_RE = re.compile(r"^[A-Za-z][A-Za-z0-9_]*$")
+TOP_KEYS = ("title", "reference", "parameters", "parts", "find", "hand")
+RESERVED = {"s", "pi", "sqrt"}
+
+_HEADER = re.compile(r"^\s*\[\s*([A-Za-z0-9_\-\"' .]+?)\s*\]\s*(#.*)?$")
+_KEY = re.compile(r"^\s*(\"[^\"]*\"|'[^']*'|[A-Za-z0-9_\-]+)\s*=")
+
+
+class _Lines:
+    """Where each table and key sits in the file text (1-based lines)."""
+
+    def __init__(self, text: str) -> None:
+        self.lines = text.splitlines()
+        self.keys: dict[tuple[str, str], int] = {}
+        self.tables: dict[str, int] = {}
+        table = ""
+        for number, line in enumerate(self.lines, start=1):
+            m = _HEADER.match(line)
+            if m:
+                table = m.group(1).strip().strip("\"'")
+                self.tables.setdefault(table, number)
+                continue
+            m = _KEY.match(line)
+            if m:
+                self.keys.setdefault((table, m.group(1).strip("\"'")), number)
+
+    def key(self, table: str, key: str) -> int | None:
+        return self.keys.get((table, key))
+
+    def column_of(self, line: int | None, needle: str, after: str = "") -> int | None:
+        """1-based column where the string literal ``needle`` starts on ``line`` (inside its quotes)."""
+        if line is None or not (1 <= line <= len(self.lines)):
+            return None
+        text = self.lines[line - 1]
+        start = 0
+        if after:
+            m = re.search(r"\b" + re.escape(after) + r"\s*=", text)
+            if m:
+                start = m.end()
+        for quote in ('"', "'"):
+            pos = text.find(quote + needle + quote, start)
+            if pos >= 0:
+                return pos + 2
+        return None
+
+
+class _Loader:
+    def __init__(self, text: str, filename: str) -> None:
+        self.text = text
+        self.file = filename
+        self.where = _Lines(text)
+        self.warnings: list[Warning] = []
+
+    def error(self, message: str, hint: str = "", line: int | None = None,
+              column: int | None = None) -> InputError:
+        return InputError(message, hint=hint, file=self.file, line=line, column=column)
+
+    # --- values ---------------------------------------------------------
+    def expression(self, raw: object, *, what: str, table: str, key: str, field: str | None,
+                   resolve) -> sympy.Expr:
+        line = self.where.key(table, key)
+        if isinstance(raw, bool) or not isinstance(raw, (int, float, str)):
+            raise self.error(f"{what} must be a number or an expression in quotes, not {_toml_type(raw)}",
+                             hint='write e.g. value = "10k"', line=line)
+        if isinstance(raw, float):
+            if not math.isfinite(raw):
+                raise self.error(f"{what} is {raw}, which is not a finite number",
+                                 hint="give a finite value", line=line)
+            return sympy.Rational(repr(raw))
+        if isinstance(raw, int):
+            return sympy.Integer(raw)
+        try:
+            return parse_expression(raw, resolve)
+        except ExpressionError as err:
+            base = self.where.column_of(line, raw, after=field or "")
+            column = base + err.column - 1 if base is not None and err.column else None
+            raise self.error(f"{what}: {err.message} in {raw!r}", hint=err.hint, line=line,
+                             column=column) from None
+
+    # --- top level --------------------------------------------------------
+    def load(self) -> Circuit:
+        try:
+            data = tomllib.loads(self.text)
+        except tomllib.TOMLDecodeError as err:
+            msg = str(err)
+            m = re.search(r"\(at line (\d+), column (\d+)\)", msg)
+            line = int(m.group(1)) if m else None
+            column = int(m.group(2)) if m else None
+            what = re.sub(r"\s*\(at line \d+, column \d+\)", "", msg) or "invalid TOML"
+            raise self.error(f"TOML syntax error: {what}",
+                             hint="circuit files are TOML 1.0: key = value, strings in double quotes, "
+                                  "one part per line as an inline table { ... }",
+                             line=line, column=column) from None
+        for key in data:
+            if key not in TOP_KEYS:
+                raise self.error(f"unknown top-level key {key!r}",
+                                 hint="allowed: " + ", ".join(TOP_KEYS),
+                                 line=self.where.tables.get(key) or self.where.key("", key))
+        title = data.get("title", "")
+        if not isinstance(title, str):
+            raise self.error("title must be a string", line=self.where.key("", "title"))
+        reference = data.get("reference", "gnd")
+        if not isinstance(reference, str) or not NODE_RE.match(reference):
+            raise self.error(f"reference {reference!r} is not a valid node name",
+                             hint="node names use letters, digits and _", line=self.where.key("", "reference"))
+        for table in ("parameters", "parts", "find", "hand"):
+            if table in data and not isinstance(data[table], dict):
+                raise self.error(f"{table} must be a table", hint=f"write [{table}] on its own line",
+                                 line=self.where.key("", table))
+        if "parts" not in data:
+            raise self.error("missing [parts] table",
+                             hint='add [parts] with one line per part, e.g. '
+                                  'R1 = { kind = "resistor", nodes = ["in", "out"], value = "10k" }',
+                             line=1)
+        parameters = self.parameters(data.get("parameters", {}))
+        parts = self.parts(data["parts"], parameters, reference)
+        nodes = self.nodes(parts, reference)
+        find = self.find(data.get("find", {}), parameters, nodes, parts)
+        hand = self.hand(data.get("hand", {}))
+        return Circuit(title=title, reference=reference, nodes=nodes, parts=tuple(parts),
+                       parameters=parameters, find=find, hand=hand, path=self.file,
+                       warnings=tuple(self.warnings), source_text=self.text)
+
+    # --- parameters -------------------------------------------------------
+    def parameters(self, table: dict) -> dict[str, Parameter]:
+        names = list(table)
+        for name in names:
+            line = self.where.key("parameters", name)
+            if not ID_RE.match(name):
+                raise self.error(f"parameter name {name!r} is not valid",
+                                 hint="names start with a letter and use letters, digits and _", line=line)
+            if name in RESERVED or name.startswith(("V_", "I_")):
+                raise self.error(f"parameter name {name!r} is reserved",
+                                 hint="s, pi, sqrt and names starting with V_ or I_ mean something else; rename it",
+                                 line=line)
+
+        def resolve(n: str):
+            return param(n) if n in table else None
+
+        result: dict[str, Parameter] = {}
+        for name, raw in table.items():
+            line = self.where.key("parameters", name)
+            tolerance = None
+            distribution = "uniform"
+            if isinstance(raw, dict):
+                unknown = set(raw) - {"value", "tolerance", "distribution"}
+                if unknown or "value" not in raw:
+                    raise self.error(f"parameter {name}: a table takes the keys value, tolerance, distribution",
+                                     hint='write e.g. R1 = { value = "10k", tolerance = "1%" }', line=line)
+                tolerance = self.tolerance(raw.get("tolerance"), name, line)
+                distribution = raw.get("distribution", "uniform")
+                if distribution not in ("uniform", "normal"):
+                    raise self.error(f"parameter {name}: distribution must be \"uniform\" or \"normal\"",
+                                     line=line)
+                raw = raw["value"]
+            if raw == "":
+                value = None
+            else:
+                value = self.expression(raw, what=f"parameter {name}", table="parameters", key=name,
+                                        field=None, resolve=resolve)
+            text = raw if isinstance(raw, str) else str(raw)
+            result[name] = Parameter(name, value, line, tolerance, text, distribution)
+        self.check_cycles(result)
+        return result
+
+    def tolerance(self, raw: object, name: str, line: int | None) -> sympy.Expr | None:
+        if raw is None:
+            return None
+        text = raw if isinstance(raw, str) else None
+        try:
+            if isinstance(raw, bool):
+                raise ValueError
+            if isinstance(raw, (int, float)):
+                value = sympy.Rational(repr(raw)) if isinstance(raw, float) else sympy.Integer(raw)
+            elif text is not None and text.strip().endswith("%"):
+                value = parse_expression(text.strip()[:-1]) / 100
+            elif text is not None:
+                value = parse_expression(text)
+            else:
+                raise ValueError
+        except (ExpressionError, ValueError):
+            raise self.error(f"parameter {name}: tolerance {raw!r} is not a number",
+                             hint='write e.g. tolerance = "1%" or tolerance = 0.01', line=line) from None
+        if not value.is_Number or value < 0:
+            raise self.error(f"parameter {name}: tolerance {raw!r} is negative",
+                             hint="a tolerance is a positive fraction such as 1% or 0.05", line=line)
+        if value > 1:
+            raise self.error(f"parameter {name}: tolerance {raw!r} is above 100%",
+                             hint="a tolerance is a fraction of the value, at most 100%", line=line)
+        return value
+
+    def check_cycles(self, params: dict[str, Parameter]) -> None:
+        deps = {n: {str(x) for x in p.value.free_symbols} if p.value is not None else set()
+                for n, p in params.items()}
+        state: dict[str, int] = {}
+
+        def visit(n: str, path: list[str]) -> None:
+            state[n] = 1
+            for d in sorted(deps[n]):
+                if d not in deps:
+                    continue
+                if state.get(d) == 1:
+                    cycle = path[path.index(d):] + [d] if d in path else [n, d]
+                    raise self.error("parameter cycle: " + " -> ".join(cycle),
+                                     hint="give one of these parameters a plain value",
+                                     line=params[d].line)
+                if state.get(d) is None:
+                    visit(d, path + [d])
+            state[n] = 2
+
+        for n in params:
+            if n not in state:
+                visit(n, [n])
+
+    # --- parts --------------------------------------------------------------
+    def parts(self, table: dict, parameters: dict[str, Parameter], reference: str) -> list[Part]:
+        if not table:
+            raise self.error("[parts] is empty", hint="add at least one part",
+                             line=self.where.tables.get("parts"))
+        if len(table) > MAX_PARTS:
+            raise self.error(f"{len(table)} parts is more than the limit of {MAX_PARTS}",
+                             hint="split the circuit", line=self.where.tables.get("parts"))
+
+        def resolve_value(n: str):
+            if n in parameters:
+                return param(n)
+            if n == "s":
+                return s
+            return None
+
+        parts: list[Part] = []
+        for pid, raw in table.items():
+            line = self.where.key("parts", pid)
+            if not ID_RE.match(pid):
+                raise self.error(f"part id {pid!r} is not valid",
+                                 hint="ids start with a letter and use letters, digits and _", line=line)
+            if not isinstance(raw, dict):
+                raise self.error(f"part {pid} must be an inline table",
+                                 hint=f'write {pid} = {{ kind = "resistor", nodes = ["a", "b"], value = "1k" }}',
+                                 line=line)
+            kind = raw.get("kind")
+            if kind not in KINDS:
+                raise self.error(f"part {pid}: unknown kind {kind!r}" if kind is not None
+                                 else f"part {pid} has no kind",
+                                 hint="kinds: " + ", ".join(KINDS), line=line)
+            cls = KINDS[kind]
+            given = set(raw) - {"kind"}
+            missing = [k for k in cls.keys if k not in given]
+            extra = sorted(given - set(cls.keys) - set(cls.optional))
+            if missing:
+                raise self.error(f"part {pid} ({kind}) is missing key {missing[0]!r}",
+                                 hint=f"a {kind} takes: " + ", ".join(cls.keys + cls.optional), line=line)
+            if extra:
+                raise self.error(f"part {pid} ({kind}) has unknown key {extra[0]!r}",
+                                 hint=f"a {kind} takes: " + ", ".join(cls.keys + cls.optional), line=line)
+            parts.append(self.part(cls, pid, raw, line, resolve_value))
+        ids = {p.id for p in parts}
+        for p in parts:
+            if isinstance(p.control, str) and p.control not in ids:
+                raise self.error(f"part {p.id}: control names part {p.control!r}, which does not exist",
+                                 hint="control = \"ID\" must name a part of [parts]", line=p.line)
+            if isinstance(p.control, str) and p.control == p.id:
+                raise self.error(f"part {p.id} is controlled by its own current",
+                                 hint="name another part in control", line=p.line)
+        self.check_values(parts, parameters)
+        return parts
+
+    def node_list(self, raw: object, pid: str, key: str, count: int, line: int | None) -> tuple[str, ...]:
+        if isinstance(raw, str) and count == 1:
+            raw = [raw]
+        if not isinstance(raw, list) or len(raw) != count or not all(isinstance(n, str) for n in raw):
+            want = "a node name" if count == 1 else f"a list of {count} node names"
+            raise self.error(f"part {pid}: {key} must be {want}",
+                             hint=f'write {key} = ["a", "b"]' if count == 2 else f'write {key} = "n1"', line=line)
+        for n in raw:
+            if not NODE_RE.match(n):
+                raise self.error(f"part {pid}: node name {n!r} is not valid",
+                                 hint="node names use letters A-Z a-z, digits and _", line=line)
+        return tuple(raw)
+
+    def part(self, cls: type[Part], pid: str, raw: dict, line: int | None, resolve) -> Part:
+        if cls.kind == "opamp":
+            nodes = tuple(self.node_list(raw[k], pid, k, 1, line)[0] for k in ("plus", "minus", "out"))
+            if nodes[0] == nodes[1]:
+                raise self.error(f"op-amp {pid} has both inputs on node {nodes[0]!r}",
+                                 hint="connect plus and minus to different nodes", line=line)
+        else:
+            nodes = self.node_list(raw["nodes"], pid, "nodes", 2, line)
+            if nodes[0] == nodes[1]:
+                raise self.error(f"part {pid} has both ends on node {nodes[0]!r}",
+                                 hint="a part must join two different nodes; remove it or fix a node name",
+                                 line=line)
+        control = None
+        if "control" in raw:
+            if cls.kind in ("vcvs", "vccs"):
+                control = self.node_list(raw["control"], pid, "control", 2, line)
+            else:
+                if not isinstance(raw["control"], str):
+                    raise self.error(f"part {pid}: control must be the id of a part in quotes",
+                                     hint='write control = "R1"', line=line)
+                control = raw["control"]
+        value = gain = None
+        if "value" in raw:
+            value = self.expression(raw["value"], what=f"part {pid} value", table="parts", key=pid,
+                                    field="value", resolve=resolve)
+        if "gain" in raw:
+            gain = self.expression(raw["gain"], what=f"part {pid} gain", table="parts", key=pid,
+                                   field="gain", resolve=resolve)
+        extra = []
+        for key in cls.optional:
+            if key in raw and key != "gain":
+                if key == "rails":
+                    r = raw[key]
+                    if not isinstance(r, list) or len(r) != 2:
+                        raise self.error(f"part {pid}: rails must be [low, high]",
+                                         hint='write rails = ["-12", "12"]', line=line)
+                    pair = tuple(self.expression(v, what=f"part {pid} rails", table="parts", key=pid,
+                                                 field="rails", resolve=resolve) for v in r)
+                    extra.append((key, pair))
+                else:
+                    extra.append((key, self.expression(raw[key], what=f"part {pid} {key}", table="parts",
+                                                       key=pid, field=key, resolve=resolve)))
+        return cls(id=pid, nodes=nodes, line=line, value=value, gain=gain, control=control,
+                   extra=tuple(extra))
+
+    def check_values(self, parts: list[Part], parameters: dict[str, Parameter]) -> None:
+        raw = {n: p.value for n, p in parameters.items() if p.value is not None}
+        subs = {param(n): v for n, v in raw.items()}
+        for p in parts:
+            if p.value is None:
+                continue
+            value = p.value
+            for _ in range(len(subs) + 1):
+                new = value.xreplace(subs)
+                if new == value:
+                    break
+                value = new
+            if not value.is_number:
+                continue
+            if value == 0 and p.value_must_be_nonzero:
+                raise self.error(f"{p.kind} {p.id} has value 0",
+                                 hint="a zero resistor or inductor is a wire and a zero capacitor is an open: "
+                                      "join the nodes or remove the part", line=p.line)
+            if value.is_extended_real and value < 0 and p.value_must_be_nonzero:
+                self.warnings.append(Warning(
+                    "negative-value", f"{p.kind} {p.id} has a negative value ({value}); "
+                    "legal for negative-impedance models, but check the sign", p.id))
+
+    # --- nodes, find, hand --------------------------------------------------
+    def nodes(self, parts: list[Part], reference: str) -> tuple[str, ...]:
+        seen: dict[str, None] = {reference: None}
+        for p in parts:
+            for n in p.terminals:
+                seen.setdefault(n, None)
+        used = {n for p in parts for n in p.terminals}
+        if reference not in used:
+            raise self.error(f"the reference node {reference!r} is not used by any part",
+                             hint=f"connect a part to {reference!r}, or set reference = \"<node>\" at the top",
+                             line=self.where.key("", "reference") or self.where.tables.get("parts"))
+        for p in parts:
+            for n in p.controls():
+                if n not in seen:
+                    raise self.error(f"part {p.id}: control node {n!r} is not connected to any part",
+                                     hint="control nodes must be nodes of the circuit", line=p.line)
+        return tuple(seen)
+
+    def find(self, table: dict, parameters: dict[str, Parameter], nodes: tuple[str, ...],
+             parts: list[Part]) -> dict[str, FindItem]:
+        resolve = quantity_resolver(parameters, nodes, [p.id for p in parts])
+        out: dict[str, FindItem] = {}
+        for name, raw in table.items():
+            line = self.where.key("find", name)
+            if not ID_RE.match(name):
+                raise self.error(f"[find] name {name!r} is not valid",
+                                 hint="names start with a letter and use letters, digits and _", line=line)
+            expr = self.expression(raw, what=f"[find] {name}", table="find", key=name, field=None,
+                                   resolve=resolve)
+            out[name] = FindItem(name, expr, raw if isinstance(raw, str) else str(raw), line)
+        return out
+
+    def hand(self, table: dict) -> dict[str, HandItem]:
+        out: dict[str, HandItem] = {}
+        for name, raw in table.items():
+            line = self.where.key("hand", name)
+            if not isinstance(raw, str):
+                raise self.error(f"[hand] {name} must be a string in quotes",
+                                 hint='write e.g. kcl_inv = "(V_inv - V_in)/R1 + (V_inv - V_out)/R2 = 0"',
+                                 line=line)
+            out[name] = HandItem(name, raw, line, self.where.column_of(line, raw))
+        return out
+
+
+def quantity_resolver(parameters, nodes, part_ids):
+    """Resolver for expressions about a circuit's quantities: parameters, V_node, I_part, s."""
+    node_set, id_set = set(nodes), set(part_ids)
+
+    def resolve(n: str):
+        if n in parameters:
+            return param(n)
+        if n == "s":
+            return s
+        if n.startswith("V_") and n[2:] in node_set:
+            return V(n[2:])
+        if n.startswith("I_") and n[2:] in id_set:
+            return I(n[2:])
+        return None
+
+    return resolve
+
+
+def _toml_type(raw: object) -> str:
+    return {bool: "true/false", list: "a list", dict: "a table"}.get(type(raw), type(raw).__name__)
+
+
+def parse_circuit(text: str, filename: str = "<circuit>") -> Circuit:
+    """Parse circuit-file text.
+
+    >>> c = parse_circuit('[parts]\\nR1 = { kind = "resistor", nodes = ["a", "gnd"], value = "1k" }')
+    >>> c.nodes, c.parts[0].value
+    (('gnd', 'a'), 1000)
+    """
+    if text.startswith("\ufeff"):
+        text = text[1:]
+    return _Loader(text, filename).load()
+
+
+def load_circuit(path: str | Path) -> Circuit:
+    """Read and parse a circuit file, turning every file problem into an :class:`InputError`."""
+    name = str(path)
+    p = Path(path)
+    try:
+        if p.is_dir():
+            raise InputError("is a directory, not a circuit file", hint="give the path of a .toml file", file=name)
+        size = p.stat().st_size
+        if size > MAX_FILE_BYTES:
+            raise InputError(f"file is {size} bytes, more than the limit of {MAX_FILE_BYTES}",
+                             hint="circuit files are small text files; check the path", file=name)
+        data = p.read_bytes()
+    except FileNotFoundError:
+        raise InputError("no such file", hint="check the path", file=name) from None
+    except PermissionError:
+        raise InputError("permission denied reading the file", hint="check the file's permissions",
+                         file=name) from None
+    except OSError as err:
+        raise InputError(f"cannot read the file ({err.strerror or err})", file=name) from None
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError as err:
+        line = data[:err.start].count(b"\n") + 1
+        raise InputError(f"the file is not UTF-8 text (byte 0x{data[err.start]:02x})",
+                         hint="save the file as UTF-8", file=name, line=line) from None
+    return parse_circuit(text, name)
