@@ -88,6 +88,7 @@ class Part:
         i = self.through(ctx)
         return [(a, i), (b, -i)]
 
+
     def through(self, ctx: Context) -> sympy.Expr:
         """Current from nodes[0] to nodes[1] through the part (non-branch parts)."""
         raise NotImplementedError
@@ -112,36 +113,52 @@ class Part:
 
 
 @dataclass(frozen=True)
-class Resistor(Part):
+class _Passive(Part):
+    """A two-terminal part with an admittance: each node sees (V_here - V_there)*Y, as written by hand."""
+
+    def admittance(self) -> sympy.Expr:
+        raise NotImplementedError
+
+    def through(self, ctx: Context) -> sympy.Expr:
+        return (ctx.V(self.nodes[0]) - ctx.V(self.nodes[1])) * self.admittance()
+
+    def kcl_terms(self, ctx: Context) -> list[tuple[str, sympy.Expr]]:
+        a, b = self.nodes[0], self.nodes[1]
+        y = self.admittance()
+        return [(a, (ctx.V(a) - ctx.V(b)) * y), (b, (ctx.V(b) - ctx.V(a)) * y)]
+
+
+@dataclass(frozen=True)
+class Resistor(_Passive):
     kind: ClassVar[str] = "resistor"
     keys: ClassVar[tuple[str, ...]] = ("nodes", "value")
     describe: ClassVar[str] = "I flows a -> b through it"
     value_must_be_nonzero: ClassVar[bool] = True
 
-    def through(self, ctx: Context) -> sympy.Expr:
-        return (ctx.V(self.nodes[0]) - ctx.V(self.nodes[1])) / self.value
+    def admittance(self) -> sympy.Expr:
+        return 1 / self.value
 
 
 @dataclass(frozen=True)
-class Capacitor(Part):
+class Capacitor(_Passive):
     kind: ClassVar[str] = "capacitor"
     keys: ClassVar[tuple[str, ...]] = ("nodes", "value")
     describe: ClassVar[str] = "admittance s*C"
     value_must_be_nonzero: ClassVar[bool] = True
 
-    def through(self, ctx: Context) -> sympy.Expr:
-        return (ctx.V(self.nodes[0]) - ctx.V(self.nodes[1])) * s * self.value
+    def admittance(self) -> sympy.Expr:
+        return s * self.value
 
 
 @dataclass(frozen=True)
-class Inductor(Part):
+class Inductor(_Passive):
     kind: ClassVar[str] = "inductor"
     keys: ClassVar[tuple[str, ...]] = ("nodes", "value")
     describe: ClassVar[str] = "impedance s*L"
     value_must_be_nonzero: ClassVar[bool] = True
 
-    def through(self, ctx: Context) -> sympy.Expr:
-        return (ctx.V(self.nodes[0]) - ctx.V(self.nodes[1])) / (s * self.value)
+    def admittance(self) -> sympy.Expr:
+        return 1 / (s * self.value)
 
 
 @dataclass(frozen=True)

@@ -314,7 +314,8 @@ def build_system(circuit: Circuit) -> "System":
         (opamp_eqs if c.kind in OPAMP_KINDS else source_eqs).append(eq)
     supernodes = [tuple(sorted(nodes, key=order.get)) for root, nodes in components.items()
                   if root != ref_root and len(nodes) > 1]
-    set_by_sources = [n for n in components[ref_root] if n != ref and n not in known]
+    outputs = {p.out for p, _ in branches if p.kind == "opamp" and p.id not in needed}
+    set_by_sources = [n for n in components[ref_root] if n != ref and n not in known and n not in outputs]
     skipped = tuple((p.out, p.id) for p, _ in branches if p.kind == "opamp" and p.id not in needed)
     lines = []
     for n in unknown_nodes:
@@ -357,7 +358,8 @@ def build_system(circuit: Circuit) -> "System":
             raise CircuitError(f"no current can flow at {'node' if kind == 'kcl' else 'supernode'} {at}: "
                                "it touches only op-amp inputs and voltage sources, so its voltage is not fixed",
                                hint="connect it to the circuit through a resistor", file=circuit.path)
-        kcl_eqs.append(Equation(kind, at, sympy.Add(*[t.expr for t in terms]), sympy.Integer(0), terms,
+        lhs = sympy.Add(*[t.expr for t in terms], evaluate=False) if len(terms) > 1 else terms[0].expr
+        kcl_eqs.append(Equation(kind, at, lhs, sympy.Integer(0), terms,
                                 tuple(t.part for t in terms), _label(kind, at)))
     kcl_text = (f"Currents leaving each node sum to zero; written at {len(kcl_eqs)} node(s)/supernode(s). ")
     if skipped:
@@ -371,10 +373,11 @@ def build_system(circuit: Circuit) -> "System":
                       data={"skipped": skipped, "set_by_sources": tuple(set_by_sources)}))
     ideal = [p.id for p in circuit.parts if p.kind == "opamp" and p.ideal]
     steps.append(Step("opamps", "Op-amp equations",
-                      ("Each ideal op-amp with negative feedback holds its inputs equal: V_plus = V_minus. "
+                      ("Each ideal op-amp with negative feedback holds its inputs equal: V_plus = V_minus."
                        if ideal else "") +
-                      ("A finite-gain op-amp gives V_out = gain*(V_plus - V_minus)."
-                       if len(ideal) < len([p for p in circuit.parts if p.kind == "opamp"]) else ""),
+                      (" A finite-gain op-amp gives V_out = gain*(V_plus - V_minus)."
+                       if len(ideal) < len([p for p in circuit.parts if p.kind == "opamp"]) else "")
+                      or "The circuit has no op-amp.",
                       tuple(opamp_eqs)))
 
     equations = tuple(source_eqs + kcl_eqs + opamp_eqs)

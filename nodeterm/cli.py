@@ -1,0 +1,153 @@
+"""The ``nodeterm`` command line: a thin layer over the engine and the presenters.
+
+``nodeterm solve FILE`` and the other batch commands never import Textual;
+``nodeterm [FILE]`` opens the workbench (the Textual UI) lazily.
+Exit status: 0 success, 1 a check found a wrong claim, 2 bad input.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from importlib import resources
+
+from .engine import InputError, build_system, load_circuit
+
+COMMANDS = {}
+DEFAULT_DEMO = "kiln_preamp.toml"
+
+
+def command(name):
+    def deco(fn):
+        COMMANDS[name] = fn
+        return fn
+    return deco
+
+
+def demo_path(name: str = DEFAULT_DEMO) -> str:
+    """Path of a bundled demo circuit (works after a non-editable install)."""
+    return str(resources.files("nodeterm.circuits").joinpath(name))
+
+
+def parse_sets(items: list[str] | None) -> dict[str, str]:
+    values: dict[str, str] = {}
+    for item in items or []:
+        if "=" not in item:
+            raise InputError(f"--set {item!r} is not NAME=VALUE", hint="write e.g. --set R1=10k",
+                             file="<command line>")
+        name, value = item.split("=", 1)
+        values[name.strip()] = value.strip()
+    return values
+
+
+def prepare(args) -> "object":
+    """Load, build and substitute as the common options ask."""
+    circuit = load_circuit(args.file)
+    system = build_system(circuit)
+    if getattr(args, "known", False):
+        system = system.substitute_known()
+    sets = parse_sets(getattr(args, "set", None))
+    if sets:
+        try:
+            system = system.substitute(sets)
+        except InputError as err:
+            err.file = err.file if err.file not in (None, circuit.path) else "--set"
+            raise
+    return system
+
+
+def add_common(p: argparse.ArgumentParser) -> None:
+    p.add_argument("file", help="circuit file (TOML)")
+    p.add_argument("--set", action="append", metavar="NAME=VALUE",
+                   help="substitute a parameter value (repeatable), e.g. --set R1=10k")
+    p.add_argument("--known", action="store_true", help="substitute every parameter that has a value in the file")
+
+
+@command("solve")
+def cmd_solve(args) -> int:
+    from .present.jsonout import to_json
+    from .present.text import report
+    system = prepare(args)
+    solution = system.solve()
+    if args.json:
+        print(to_json(system, solution))
+    else:
+        sys.stdout.write(report(system, solution, ascii_only=args.ascii))
+    return 0
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="nodeterm",
+        description="Node-voltage equations of op-amp circuits: derive, solve exactly, audit, export. "
+                    "'nodeterm [FILE]' opens the workbench (the bundled demo without FILE).")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    p = sub.add_parser("solve", help="print the steps, equations, matrix and exact results")
+    add_common(p)
+    p.add_argument("--json", action="store_true", help="print one JSON object (see docs/json-contract.md)")
+    p.add_argument("--ascii", action="store_true", help="7-bit output only")
+    for extend in _EXTENSIONS:
+        extend(sub)
+    return parser
+
+
+_EXTENSIONS: list = []  # other modules add their subcommands here (see register_subcommand)
+
+
+def register_subcommand(fn):
+    """Let a module add a subcommand: fn(subparsers) adds a parser and @command registers its handler."""
+    _EXTENSIONS.append(fn)
+    return fn
+
+
+def _load_extensions() -> None:
+    import importlib
+    for mod in ("nodeterm.cli_audit", "nodeterm.cli_analysis"):
+        try:
+            importlib.import_module(mod)
+        except ModuleNotFoundError as err:
+            if err.name != mod:
+                raise
+
+
+def open_workbench(path: str | None) -> int:
+    from .ui.app import run  # Textual is imported only here
+    return run(path)
+
+
+def main(argv: list[str] | None = None) -> int:
+    argv = list(sys.argv[1:] if argv is None else argv)
+    _load_extensions()
+    try:
+        if not argv or (argv[0] not in COMMANDS and argv[0] not in ("-h", "--help", "--version")
+                        and not argv[0].startswith("-")):
+            if len(argv) > 1:
+                print(f"nodeterm: unexpected arguments {' '.join(argv[1:])!r}; "
+                      "use 'nodeterm FILE' or 'nodeterm COMMAND ...' (see nodeterm --help)", file=sys.stderr)
+                return 2
+            path = argv[0] if argv else None
+            if path is not None:
+                load_circuit(path)  # a bad file is reported here, before the screen opens
+            return open_workbench(path)
+        if argv[0] == "--version":
+            from . import __version__
+            print(f"nodeterm {__version__}")
+            return 0
+        parser = build_parser()
+        try:
+            args = parser.parse_args(argv)
+        except SystemExit as exc:  # argparse already printed its message
+            return 0 if exc.code == 0 else 2
+        return COMMANDS[args.command](args)
+    except InputError as err:
+        print(f"nodeterm: {err}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("nodeterm: interrupted", file=sys.stderr)
+        return 130
+    except BrokenPipeError:
+        return 0
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

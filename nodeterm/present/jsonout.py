@@ -1,0 +1,53 @@
+"""The JSON contract of ``nodeterm solve --json`` (documented in docs/json-contract.md).
+
+Expressions are SymPy-syntax strings (``**`` powers). Pure data: no Textual.
+"""
+
+from __future__ import annotations
+
+import json
+
+import sympy
+
+from .format import expr_text
+
+
+def _eq(e) -> dict:
+    return {"kind": e.kind, "at": e.at, "lhs": expr_text(e.lhs), "rhs": expr_text(e.rhs), "label": e.label,
+            "parts": list(e.parts)}
+
+
+def solution_dict(system, solution=None, numeric: bool = False) -> dict:
+    """The solve result as plain data."""
+    c = system.circuit
+    m = system.matrix()
+    fmt = (lambda e: _num(e)) if numeric else expr_text
+    out = {
+        "title": c.title,
+        "reference": c.reference,
+        "unknowns": [str(u) for u in system.unknowns],
+        "skipped": [n for n, _ in system.skipped],
+        "equations": [_eq(e) for e in system.equations],
+        "reduced_equations": [_eq(e) for e in system.reduced_equations],
+        "matrix": {"rows": list(m.rows), "cols": list(m.cols),
+                   "A": [[expr_text(m.A[i, j]) for j in range(m.A.shape[1])] for i in range(m.A.shape[0])],
+                   "b": [expr_text(m.b[i, 0]) for i in range(m.b.shape[0])]},
+        "values": {n: expr_text(v) for n, v in system.values.items()},
+        "warnings": [w.as_dict() for w in system.warnings],
+    }
+    if solution is not None:
+        out["node_voltages"] = {n: fmt(v) for n, v in solution.node_voltages.items()}
+        out["currents"] = {n: fmt(v) for n, v in solution.currents.items()}
+        out["find"] = {n: fmt(v) for n, v in solution.find.items()}
+    return out
+
+
+def _num(e) -> str:
+    e = sympy.sympify(e)
+    if e.is_number:
+        return repr(float(e)) if e.is_real else str(complex(e))
+    return expr_text(e)
+
+
+def to_json(system, solution=None, numeric: bool = False) -> str:
+    return json.dumps(solution_dict(system, solution, numeric), indent=2, ensure_ascii=False)
