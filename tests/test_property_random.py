@@ -231,6 +231,22 @@ def exactly_singular(c: Drawn) -> bool:
     return M.rank() < M.shape[0]
 
 
+def source_groups(c: Drawn) -> dict[str, set[str]]:
+    """Nodes joined by voltage sources, keyed by a representative (the reference when it is in the group)."""
+    groups = {n: {n} for n in c.nodes() + [c.reference]}
+    owner = {n: n for n in groups}
+    for p in c.parts:
+        if p.kind != "vsource":
+            continue
+        a, b = (owner[n] for n in p.nodes)
+        if b == c.reference:
+            a, b = b, a
+        groups[a] |= groups.pop(b)
+        for n in groups[a]:
+            owner[n] = a
+    return groups
+
+
 def close(got: float, want: float, scale: float) -> bool:
     return abs(got - want) <= 1e-9 * max(1.0, scale)
 
@@ -253,6 +269,18 @@ def test_engine_agrees_with_numpy_mna(c: Drawn):
     opamps = [p for p in c.parts if p.kind == "opamp"]
     assert [e.kind for e in system.equations].count("opamp_equality") == len(opamps), text
     assert {p.nodes[2] for p in opamps} == {tuple(x)[0] for x in system.skipped}, text
+    # Sources: nodes tied to the reference through sources are known; other groups of nodes joined
+    # by sources are supernodes (one KCL each, one constraint per source); every other node that is
+    # not an op-amp output gets its own KCL.
+    groups = source_groups(c)
+    known = groups.get(c.reference, set()) - {c.reference}
+    floating = [g for r, g in groups.items() if r != c.reference and len(g) > 1]
+    kinds = [e.kind for e in system.equations]
+    assert kinds.count("known_voltage") == len(known), text
+    assert kinds.count("supernode_kcl") == len(floating), text
+    assert kinds.count("source_constraint") == sum(len(g) - 1 for g in floating), text
+    in_groups = known | set().union(*floating)
+    assert kinds.count("kcl") == len(set(c.nodes()) - in_groups) - len(opamps), text
     if c.parameters:
         system = system.substitute_known()
     sol = system.solve()
@@ -276,8 +304,9 @@ def test_engine_agrees_with_numpy_mna(c: Drawn):
     for p in c.parts:
         current = sympy.sympify(sol.currents[p.id])
         assert not current.has(sympy.Float), f"I_{p.id} is not exact: {current}\n{text}"
-        if p.kind == "opamp":
+        if p.kind == "opamp":  # out of the output pin, back through the supplies to the reference
             leaving[p.nodes[2]] -= current
+            leaving[c.reference] += current
             continue
         a, b = p.nodes
         leaving[a] += current

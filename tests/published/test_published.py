@@ -536,7 +536,8 @@ def test_kcl_terms_sum_to_equation(name):
 def test_kcl_holds_at_every_node(name):
     # Kirchhoff's current law at every node, op-amp outputs included, with the solved part currents
     # (common practice, no source).  Two-terminal parts carry their current from nodes[0] to nodes[1];
-    # an op-amp's current leaves its output pin into node `out`; inputs and control pins draw nothing.
+    # an op-amp's current leaves its output pin into node `out` and returns through the supplies to the
+    # reference node; inputs and control pins draw nothing.
     circuit, _, sol = solve_case(name)
     leaving = {n: sympy.Integer(0) for n in circuit.nodes}
     for p in circuit.parts:
@@ -545,8 +546,9 @@ def test_kcl_holds_at_every_node(name):
             a, b = p.nodes
             leaving[a] += current
             leaving[b] -= current
-        elif p.kind == "opamp":
+        elif p.kind == "opamp":  # out of the output pin, back through the supplies to the reference
             leaving[p.out] -= current
+            leaving[circuit.reference] += current
         else:  # pragma: no cover - a new kind needs its terminals described here
             pytest.fail(f"unknown kind {p.kind}")
     for node, total in leaving.items():
