@@ -495,6 +495,11 @@ def test_supernode_against_numpy():
     )[0]
     for node, sym in (("b", vb), ("c", vc), ("d", vd)):
         assert_same(sol.node_voltages[node], hand[sym], f"V_{node}")
+    # The engine's labelled matrix is satisfied by the hand solution.
+    m = build_system(load_circuit(str(HERE / "supernode_floating_source.toml"))).matrix()
+    assert set(m.cols) == {"V_b", "V_c", "V_d"}
+    x = sympy.Matrix([hand[{"V_b": vb, "V_c": vc, "V_d": vd}[col]] for col in m.cols])
+    assert sympy.simplify(m.A * x - m.b) == sympy.zeros(3, 1)
     # The floating source's current from KCL at node c: Vfl carries I from b to c, i.e. into c
     # (common practice, no source).
     v = sol.node_voltages
