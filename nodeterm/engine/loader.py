@@ -372,6 +372,20 @@ class _Loader:
                     "negative-value", f"{p.kind} {p.id} has a negative value ({value}); "
                     "legal for negative-impedance models, but check the sign", p.id))
 
+        def numeric(expr):
+            if expr is None:
+                return None
+            for _ in range(len(subs) + 1):
+                new = expr.xreplace(subs)
+                if new == expr:
+                    break
+                expr = new
+            return expr if expr.is_number and expr.is_extended_real else None
+
+        for p in parts:  # kind-specific impossible values (op-amp rails, gbw...)
+            for message, hint in p.check(numeric):
+                raise self.error(message, hint=hint, line=p.line)
+
     # --- nodes, find, hand --------------------------------------------------
     def nodes(self, parts: list[Part], reference: str) -> tuple[str, ...]:
         seen: dict[str, None] = {reference: None}

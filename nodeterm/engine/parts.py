@@ -107,6 +107,20 @@ class Part:
     def terminals(self) -> tuple[str, ...]:
         return self.nodes
 
+    def links(self, reference: str) -> list[tuple[str, str]]:
+        """Node pairs this part joins for connectivity (a DC path for non-capacitive kinds)."""
+        br = self.branch(reference)
+        return [br if br is not None else (self.nodes[0], self.nodes[1])]
+
+    def check(self, numeric) -> list[tuple[str, str]]:
+        """(message, hint) for each impossible kind-specific value.
+
+        Args:
+            numeric: maps one of the part's expressions to its number once parameters are
+                resolved, or to None when it is not a plain real number.
+        """
+        return []
+
     def controls(self) -> tuple[str, ...]:
         """Nodes whose voltages this part senses (not terminals)."""
         return self.control if isinstance(self.control, tuple) else ()
@@ -240,14 +254,22 @@ class CCVS(VoltageSource):
 class OpAmp(Part):
     """An op-amp: ``nodes`` = (plus, minus, out).
 
-    Ideal (no ``gain``): no input current, V_plus = V_minus, output current unconstrained.
-    With ``gain``: V_out = gain*(V_plus - V_minus). Its current I_<id> leaves the output pin into node out.
+    Ideal (no ``gain``, no ``gbw``): no input current, V_plus = V_minus, output current unconstrained.
+
+    Real model (``gain`` = A0 and/or ``gbw`` in Hz): the open-loop gain is the single-pole
+    A(s) = A0/(1 + s*A0/(2*pi*GBW)); A0 alone gives a flat gain, GBW alone the integrator 2*pi*GBW/s.
+    Without ``rout`` the output is a branch: V_out = A(s)*(V_plus - V_minus), its KCL skipped.
+    With ``rout`` the output is the source A(s)*(V_plus - V_minus) behind rout, so node out gets an
+    ordinary KCL and the op-amp is not a branch. ``rin`` is a resistance between plus and minus.
+    ``rin`` and ``rout`` only act in the real model (with ``gain`` or ``gbw``).
+    I_<id> always leaves the output pin into node out.
     """
 
     kind: ClassVar[str] = "opamp"
     keys: ClassVar[tuple[str, ...]] = ("plus", "minus", "out")
     optional: ClassVar[tuple[str, ...]] = ("gain", "gbw", "rin", "rout", "rails", "max_current")
-    describe: ClassVar[str] = "ideal without gain (V_plus = V_minus); with gain: V_out = gain*(V_plus - V_minus)"
+    describe: ClassVar[str] = ("ideal without gain/gbw (V_plus = V_minus); with them: "
+                               "V_out = A(s)*(V_plus - V_minus), A(s) = gain/(1 + s*gain/(2*pi*gbw))")
 
     @property
     def plus(self) -> str:
@@ -263,23 +285,92 @@ class OpAmp(Part):
 
     @property
     def ideal(self) -> bool:
-        return self.gain is None
+        return self.gain is None and self.get("gbw") is None
+
+    def open_loop_gain(self) -> sympy.Expr | None:
+        """A(s) of the real model, or None for an ideal op-amp.
+
+        >>> OpAmp("U1", ("p", "m", "o"), gain=sympy.Integer(1000)).open_loop_gain()
+        1000
+        >>> OpAmp("U1", ("p", "m", "o"), extra=(("gbw", sympy.Integer(10**6)),)).open_loop_gain()
+        2000000*pi/s
+        """
+        a0, gbw = self.gain, self.get("gbw")
+        if gbw is None:
+            return a0
+        wt = 2 * sympy.pi * gbw
+        if a0 is None:
+            return wt / s
+        return a0 / (1 + s * a0 / wt)
+
+    def _rin(self):
+        return None if self.ideal else self.get("rin")
+
+    def _rout(self):
+        return None if self.ideal else self.get("rout")
+
+    def _drive(self, ctx: Context) -> sympy.Expr:
+        return self.open_loop_gain() * (ctx.V(self.plus) - ctx.V(self.minus))
 
     def branch(self, reference: str) -> tuple[str, str] | None:
+        if self._rout() is not None:
+            return None  # a source behind rout: node out gets an ordinary KCL
         # The output stage drives node out from the reference: current flows reference -> out inside it.
         return reference, self.out
 
+    def links(self, reference: str) -> list[tuple[str, str]]:
+        pairs = [(reference, self.out)]
+        if self._rin() is not None:
+            pairs.append((self.plus, self.minus))
+        return pairs
+
     def kcl_terms(self, ctx: Context) -> list[tuple[str, sympy.Expr]]:
-        return []
+        terms: list[tuple[str, sympy.Expr]] = []
+        rin = self._rin()
+        if rin is not None:
+            i_in = (ctx.V(self.plus) - ctx.V(self.minus)) / rin
+            terms += [(self.plus, i_in), (self.minus, -i_in)]
+        rout = self._rout()
+        if rout is not None:
+            i_back = (ctx.V(self.out) - self._drive(ctx)) / rout  # leaves node out into the output pin
+            terms += [(self.out, i_back), (ctx.reference, -i_back)]
+        return terms
+
+    def through(self, ctx: Context) -> sympy.Expr:
+        rout = self._rout()
+        if rout is None:
+            raise NotImplementedError
+        return (self._drive(ctx) - ctx.V(self.out)) / rout
 
     def constraint(self, ctx: Context) -> Constraint | None:
         if self.ideal:
             return Constraint("opamp_equality", ctx.V(self.plus), ctx.V(self.minus), (self.id,))
-        return Constraint("opamp_gain", ctx.V(self.out),
-                          self.gain * (ctx.V(self.plus) - ctx.V(self.minus)), (self.id,))
+        if self._rout() is not None:
+            return None
+        return Constraint("opamp_gain", ctx.V(self.out), self._drive(ctx), (self.id,))
 
     def controls(self) -> tuple[str, ...]:
         return (self.plus, self.minus)
+
+    def check(self, numeric) -> list[tuple[str, str]]:
+        problems: list[tuple[str, str]] = []
+        for key, what in (("gbw", "gain-bandwidth product"), ("rin", "input resistance"),
+                          ("rout", "output resistance"), ("max_current", "output current limit")):
+            v = numeric(self.get(key))
+            if v is not None and v <= 0:
+                problems.append((f"op-amp {self.id}: {key} = {v} must be positive ({what})",
+                                 f"give {key} a value above 0"))
+        g = numeric(self.gain)
+        if g is not None and g == 0:
+            problems.append((f"op-amp {self.id}: gain = 0 makes the output always 0",
+                             "give the open-loop gain, e.g. gain = \"100k\", or remove it for an ideal op-amp"))
+        rails = self.get("rails")
+        if rails is not None:
+            low, high = (numeric(r) for r in rails)
+            if low is not None and high is not None and low >= high:
+                problems.append((f"op-amp {self.id}: rails = [{low}, {high}] has low >= high",
+                                 "write rails = [low, high] with low below high, e.g. [\"-12\", \"12\"]"))
+        return problems
 
 
 KINDS: dict[str, type[Part]] = {

@@ -144,12 +144,15 @@ def solve_system(system) -> Solution:
             currents[p.id] = ev(p.current(ctx, None))
             for node, cur in p.kcl_terms(ctx):
                 leaving[node] += cur
-        elif p.id in system.needed:
-            currents[p.id] = values[I(p.id)]
-            leaving[br[0]] += I(p.id)
-            leaving[br[1]] -= I(p.id)
         else:
-            unresolved[p.id] = br
+            for node, cur in p.kcl_terms(ctx):  # e.g. the rin current of a real op-amp
+                leaving[node] += cur
+            if p.id in system.needed:
+                currents[p.id] = values[I(p.id)]
+                leaving[br[0]] += I(p.id)
+                leaving[br[1]] -= I(p.id)
+            else:
+                unresolved[p.id] = br
     leaving = {n: expr.xreplace(full).xreplace(pvals) for n, expr in leaving.items()}
     progress = True
     while unresolved and progress:  # peel the source forest from its leaves

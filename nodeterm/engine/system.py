@@ -185,10 +185,9 @@ def _check_connected(circuit: Circuit) -> None:
     """Every node must reach the reference through parts (op-amp inputs draw no current)."""
     adj: dict[str, set[str]] = {n: set() for n in circuit.nodes}
     for p in circuit.parts:
-        br = p.branch(circuit.reference)
-        pair = br if br is not None else (p.nodes[0], p.nodes[1])
-        adj[pair[0]].add(pair[1])
-        adj[pair[1]].add(pair[0])
+        for a, b in p.links(circuit.reference):
+            adj[a].add(b)
+            adj[b].add(a)
     seen = {circuit.reference}
     stack = [circuit.reference]
     while stack:
@@ -339,8 +338,7 @@ def build_system(circuit: Circuit) -> "System":
                 a, b = p.branch(ref)
                 per_node[a].append((p.id, I(p.id)))
                 per_node[b].append((p.id, -I(p.id)))
-            continue
-        for node, cur in p.kcl_terms(ctx):
+        for node, cur in p.kcl_terms(ctx):  # a branch part may add currents too (op-amp rin)
             per_node[node].append((p.id, cur))
     kcl_eqs: list[Equation] = []
     for root, nodes in sorted(components.items(), key=lambda kv: min(order[n] for n in kv[1])):
@@ -375,7 +373,8 @@ def build_system(circuit: Circuit) -> "System":
     steps.append(Step("opamps", "Op-amp equations",
                       ("Each ideal op-amp with negative feedback holds its inputs equal: V_plus = V_minus."
                        if ideal else "") +
-                      (" A finite-gain op-amp gives V_out = gain*(V_plus - V_minus)."
+                      (" A real op-amp gives V_out = A(s)*(V_plus - V_minus), A(s) its open-loop gain"
+                       " (with rout: that source behind rout, and node out gets an ordinary KCL)."
                        if len(ideal) < len([p for p in circuit.parts if p.kind == "opamp"]) else "")
                       or "The circuit has no op-amp.",
                       tuple(opamp_eqs)))
@@ -420,7 +419,8 @@ def build_system(circuit: Circuit) -> "System":
                       " ".join(text) or "Nothing to substitute.", tuple(reduced),
                       data={"known": dict(subs), "equalities": dict(eq_subs),
                             "unknowns": tuple(str(u) for u in red_unknowns)}))
-    warnings = list(circuit.warnings) + _dc_path_warnings(circuit)
+    from .analysis.cautions import circuit_warnings  # hazardous sources, real-model keys without effect
+    warnings = list(circuit.warnings) + _dc_path_warnings(circuit) + circuit_warnings(circuit)
     return System(circuit=circuit, equations=equations, unknowns=tuple(unknowns), skipped=skipped,
                   steps=tuple(steps), reduced_equations=tuple(reduced), reduced_unknowns=red_unknowns,
                   eliminated=eliminated, needed=tuple(sorted(needed)), values={},
@@ -433,10 +433,9 @@ def _dc_path_warnings(circuit: Circuit) -> list[Warning]:
     for p in circuit.parts:
         if p.kind in ("capacitor", "isource", "vccs", "cccs"):
             continue
-        br = p.branch(circuit.reference)
-        a, b = br if br is not None else (p.nodes[0], p.nodes[1])
-        adj[a].add(b)
-        adj[b].add(a)
+        for a, b in p.links(circuit.reference):
+            adj[a].add(b)
+            adj[b].add(a)
     seen, stack = {circuit.reference}, [circuit.reference]
     while stack:
         for v in adj[stack.pop()]:
