@@ -53,8 +53,9 @@ def explain_singular(system, m) -> SolveError:
         else:
             msg = (f"nodes {', '.join(lost)} reach the reference only through current sources: their "
                    "voltages are not fixed by the equations")
+        feeding = [p for p in circuit.parts if p.kind in CURRENT_KINDS and set(p.nodes) & set(lost)]
         return SolveError(msg, hint=f"add a resistor from {lost[0]!r} to the reference, or check the sources",
-                          file=path)
+                          file=path, line=feeding[0].line if feeding else None)
     # 2. op-amps without a feedback path from output to an input
     for p in circuit.parts:
         if p.kind != "opamp":
@@ -66,7 +67,10 @@ def explain_singular(system, m) -> SolveError:
             return SolveError(
                 f"op-amp {p.id} has no feedback path from its output {p.out!r} to its inputs: "
                 "an ideal op-amp cannot hold V_plus = V_minus without feedback, so the equations are singular",
-                hint=f"connect a feedback network from {p.out!r} to {p.minus!r} (negative feedback)",
+                hint=(f"connect a feedback network from {p.out!r} to the inverting input {p.minus!r}"
+                      if p.minus != ref else
+                      f"its inverting input is the reference node {ref!r}; swap plus and minus or add "
+                      f"feedback from {p.out!r} to an input node"),
                 file=path, line=p.line)
     # 3. general: which unknowns are not determined
     A = m.A

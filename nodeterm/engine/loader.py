@@ -15,7 +15,7 @@ from pathlib import Path
 import sympy
 
 from .errors import InputError, Warning
-from .expr import ExpressionError, parse_expression
+from .expr import MAX_LITERAL_DIGITS, ExpressionError, parse_expression
 from .model import Circuit, FindItem, HandItem, Parameter
 from .parts import KINDS, Part
 from .symbols import I, V, param, s
@@ -94,13 +94,22 @@ class _Loader:
                                  hint="give a finite value", line=line)
             return sympy.Rational(repr(raw))
         if isinstance(raw, int):
+            if abs(raw) >= 10**MAX_LITERAL_DIGITS:
+                raise self.error(f"{what} is an integer of more than {MAX_LITERAL_DIGITS} digits",
+                                 hint="write it with an exponent or an SI prefix, e.g. \"4.7e12\"", line=line)
             return sympy.Integer(raw)
         try:
             return parse_expression(raw, resolve)
         except ExpressionError as err:
             base = self.where.column_of(line, raw, after=field or "")
             column = base + err.column - 1 if base is not None and err.column else None
-            raise self.error(f"{what}: {err.message} in {raw!r}", hint=err.hint, line=line,
+            hint = err.hint
+            if err.message.startswith("unknown name"):
+                hint = {"parameters": "a parameter value may use other parameters of [parameters] only",
+                        "parts": "define it in [parameters] (NAME = \"value\", or \"\" for a symbol); "
+                                 "part values may use parameters and s, not V_ or I_ names",
+                        }.get(table, hint)
+            raise self.error(f"{what}: {err.message} in {raw!r}", hint=hint, line=line,
                              column=column) from None
 
     # --- top level --------------------------------------------------------
@@ -117,6 +126,15 @@ class _Loader:
                              hint="circuit files are TOML 1.0: key = value, strings in double quotes, "
                                   "one part per line as an inline table { ... }",
                              line=line, column=column) from None
+        except RecursionError:
+            raise self.error("TOML nesting is too deep",
+                             hint="circuit files need no nested arrays or tables; remove the nesting",
+                             line=None) from None
+        except ValueError:  # an integer with more digits than Python converts (4300)
+            m = re.search(r"\d{%d}" % (MAX_LITERAL_DIGITS + 1), self.text)
+            raise self.error(f"a number has more than {MAX_LITERAL_DIGITS} digits",
+                             hint="write it with an exponent or an SI prefix, e.g. \"4.7e12\"",
+                             line=self.text.count("\n", 0, m.start()) + 1 if m else None) from None
         for key in data:
             if key not in TOP_KEYS:
                 raise self.error(f"unknown top-level key {key!r}",

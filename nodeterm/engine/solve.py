@@ -41,22 +41,36 @@ class Solution:
     values: dict = field(default_factory=dict)
 
 
-def canonical(expr: sympy.Expr) -> sympy.Expr:
-    """One fraction, numerator and denominator expanded and collected in s.
+FACTOR_LIMIT = 40  # total terms up to which coefficients are factored for readability
 
-    >>> R, C = sympy.symbols("R C")
+
+def canonical(expr: sympy.Expr) -> sympy.Expr:
+    """One fraction; numerator and denominator collected in s when reactive.
+
+    Small results get their coefficients factored, as an engineer writes them
+    (``C2*(R1 + R2)*s``); large ones stay expanded so that building them stays cheap.
+
+    >>> R, C, R1, R2, C1, C2 = sympy.symbols("R C R1 R2 C1 C2")
     >>> canonical(1/(1 + 1/(s*R*C)))
     C*R*s/(C*R*s + 1)
+    >>> canonical(1/(s**2*C1*C2*R1*R2 + s*C2*R1 + s*C2*R2 + 1))
+    1/(C1*C2*R1*R2*s**2 + C2*s*(R1 + R2) + 1)
+    >>> canonical(sympy.Rational(1, 250) + 2*R/125)
+    (4*R + 1)/250
     """
     expr = sympy.sympify(expr)
     if expr.is_Number:
         return expr
     expr = sympy.cancel(sympy.together(expr))
-    if not expr.has(s):
-        return expr
     num, den = sympy.fraction(expr)
-    num = sympy.collect(sympy.expand(num), s)
-    den = sympy.collect(sympy.expand(den), s)
+    num, den = sympy.expand(num), sympy.expand(den)
+    small = len(sympy.Add.make_args(num)) + len(sympy.Add.make_args(den)) <= FACTOR_LIMIT
+    if expr.has(s):
+        func = sympy.factor if small else (lambda x: x)
+        num = sympy.collect(num, s, func=func)
+        den = sympy.collect(den, s, func=func)
+    elif small:
+        num, den = sympy.factor(num), sympy.factor(den)
     return num / den if den != 1 else num
 
 

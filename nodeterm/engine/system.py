@@ -341,6 +341,7 @@ def build_system(circuit: Circuit) -> "System":
         for node, cur in p.kcl_terms(ctx):  # a branch part may add currents too (op-amp rin)
             per_node[node].append((p.id, cur))
     kcl_eqs: list[Equation] = []
+    internal: list[str] = []
     for root, nodes in sorted(components.items(), key=lambda kv: min(order[n] for n in kv[1])):
         if root == ref_root:
             continue
@@ -350,6 +351,9 @@ def build_system(circuit: Circuit) -> "System":
             for pid, cur in per_node[n]:
                 sums[pid] = sums.get(pid, 0) + cur
         terms = tuple(Term(pid, cur) for pid, cur in sums.items() if sympy.expand(cur) != 0)
+        if len(nodes) > 1:
+            internal.extend(pid for pid, cur in sums.items() if sympy.expand(cur) == 0
+                            and circuit.part(pid).branch(ref) is None)
         at = "+".join(nodes)
         kind = "kcl" if len(nodes) == 1 else "supernode_kcl"
         if not terms:
@@ -364,11 +368,16 @@ def build_system(circuit: Circuit) -> "System":
         kcl_text += ("No KCL at " + ", ".join(f"{n} (output of {pid})" for n, pid in skipped)
                      + ": an op-amp output supplies whatever current the circuit needs, so that KCL would "
                        "only add an unknown current. ")
+    if internal:
+        kcl_text += (", ".join(internal) + (" lies" if len(internal) == 1 else " lie")
+                     + " inside a supernode: the current leaves one member node and enters another, "
+                       "so it cancels from the supernode KCL. ")
     if set_by_sources:
         kcl_text += ("No KCL at " + ", ".join(set_by_sources)
                      + ": their voltages are fixed by source constraints.")
     steps.append(Step("kcl", "KCL at the nodes", kcl_text.strip(), tuple(kcl_eqs),
-                      data={"skipped": skipped, "set_by_sources": tuple(set_by_sources)}))
+                      data={"skipped": skipped, "set_by_sources": tuple(set_by_sources),
+                            "inside_supernodes": tuple(internal)}))
     ideal = [p.id for p in circuit.parts if p.kind == "opamp" and p.ideal]
     steps.append(Step("opamps", "Op-amp equations",
                       ("Each ideal op-amp with negative feedback holds its inputs equal: V_plus = V_minus."

@@ -42,14 +42,33 @@ def eng(value: float, unit: str = "", digits: int = 4, ascii_only: bool = False)
     return f"{text}{sep}{prefix}{unit}"
 
 
-def expr_text(expr, ascii_only: bool = False) -> str:
-    """One-line form of an expression in SymPy syntax.
+def expr_text(expr, ascii_only: bool = False, hand: bool = False) -> str:
+    """One-line form of an expression in SymPy syntax (``**`` powers).
 
-    >>> R, V1, V2 = sympy.symbols("R V_1 V_2")
-    >>> expr_text((V2 - V1)/(2*R))
+    Results print in SymPy's order (descending powers of s). ``hand=True`` keeps
+    the order the terms were written in, for the terms of a KCL equation.
+
+    >>> R, V1, V2, s = sympy.symbols("R V_1 V_2 s")
+    >>> expr_text((V2 - V1)/(2*R), hand=True)
     '(V_2 - V_1)/(2*R)'
+    >>> expr_text(1/(s**2 + 3*s + 2))
+    '1/(s**2 + 3*s + 2)'
     """
-    return sympy.sstr(expr, order="none")
+    return sympy.sstr(expr, order="none" if hand else None)
+
+
+def equation_text(e, ascii_only: bool = False) -> str:
+    """``lhs = rhs``; a KCL written by the procedure shows its terms in the order written."""
+    if e.terms and e.kind in ("kcl", "supernode_kcl"):
+        text = ""
+        for i, t in enumerate(e.terms):
+            term = expr_text(t.expr, hand=True)
+            if i and term.startswith("-"):
+                text += " - " + term[1:]
+            else:
+                text += (" + " if i else "") + term
+        return f"{text} = {expr_text(e.rhs)}"
+    return f"{expr_text(e.lhs)} = {expr_text(e.rhs)}"
 
 
 def is_numeric(expr) -> bool:
@@ -65,7 +84,7 @@ def value_text(expr, unit: str = "", ascii_only: bool = False) -> str:
     """
     text = expr_text(expr)
     if is_numeric(expr) and sympy.sympify(expr).is_real:
-        approx = eng(float(expr), unit, ascii_only=ascii_only)
+        approx = eng(float(expr), unit, ascii_only=ascii_only) if unit else f"{float(expr):.4g}"
         if sympy.sympify(expr).is_Integer and abs(int(expr)) < 1000:
             return f"{text} {unit}".rstrip()
         return f"{text} ({'~' if ascii_only else '≈'} {approx})"

@@ -2,13 +2,9 @@
 
 from __future__ import annotations
 
-from .format import expr_text, value_text
+from .format import equation_text, expr_text, value_text
 
 UNIT_V, UNIT_A = "V", "A"
-
-
-def equation_text(e) -> str:
-    return f"{expr_text(e.lhs)} = {expr_text(e.rhs)}"
 
 
 def matrix_lines(m, ascii_only: bool = False) -> list[str]:
@@ -32,7 +28,7 @@ def steps_lines(system) -> list[str]:
             out.append(f"    [{e.label}]  {equation_text(e)}")
             if e.terms and step.kind == "kcl":
                 for t in e.terms:
-                    out.append(f"        {t.part}: {expr_text(t.expr)}")
+                    out.append(f"        {t.part}: {expr_text(t.expr, hand=True)}")
         out.append("")
     return out
 
