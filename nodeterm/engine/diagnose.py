@@ -56,7 +56,16 @@ def explain_singular(system, m) -> SolveError:
         feeding = [p for p in circuit.parts if p.kind in CURRENT_KINDS and set(p.nodes) & set(lost)]
         return SolveError(msg, hint=f"add a resistor from {lost[0]!r} to the reference, or check the sources",
                           file=path, line=feeding[0].line if feeding else None)
-    # 2. op-amps without a feedback path from output to an input
+    # 2. op-amps whose both inputs are held by sources: V_plus = V_minus becomes a fixed claim
+    known = system.steps[1].data.get("known", {}) if len(system.steps) > 1 else {}
+    for p in circuit.parts:
+        if p.kind == "opamp" and p.ideal and all(n == ref or n in known for n in (p.plus, p.minus)):
+            return SolveError(
+                f"both inputs of op-amp {p.id} ({p.plus!r} and {p.minus!r}) are held by sources, so nothing "
+                "in the circuit can make V_plus = V_minus: its output is not determined",
+                hint="feed the output back to an input through the network (negative feedback)",
+                file=path, line=p.line)
+    # 3. op-amps without a feedback path from output to an input
     for p in circuit.parts:
         if p.kind != "opamp":
             continue
@@ -72,7 +81,7 @@ def explain_singular(system, m) -> SolveError:
                       f"its inverting input is the reference node {ref!r}; swap plus and minus or add "
                       f"feedback from {p.out!r} to an input node"),
                 file=path, line=p.line)
-    # 3. general: which unknowns are not determined
+    # 4. general: which unknowns are not determined
     A = m.A
     rank = A.rank(simplify=True) if A.shape[1] else 0
     free = []
