@@ -1,0 +1,722 @@
+"""Audit of a hand derivation: does each claim of the engineer agree with the node equations?
+
+A claim is either
+
+* a **claimed equation** ``"lhs = rhs"`` (any scaling or arrangement, possibly with
+  constraints already substituted), or
+* a **claimed result**: an expression under a ``[find]`` name.
+
+:func:`audit_claims` gives one :class:`Verdict` per claim.
+
+An equation **holds** when it is satisfied by the exact solution. It is then a
+linear combination of the generated equations (the generated set determines
+the solution, so any linear equation true at the solution is one); the
+coefficients are found exactly by solving ``A^T lambda = c`` with the same
+fraction-free solver as the circuit, and the verdict names the equation it
+matches, its scale, and the constraints (known voltages, op-amp input
+equalities) used on the way.
+
+An equation that **fails** is compared with every generated equation, both as
+written and after the known voltages and input equalities are substituted
+(:attr:`System.eliminated`). Each comparison scales the generated equation by a
+factor read off a shared coefficient, then attributes the claim, coordinate by
+coordinate (coefficient of each unknown and the constant), to the per-part
+terms of the KCL equation: a coefficient only one part contributes tells that
+part's multiplier (1 right, 0 missing, -1 sign error, anything else a wrong
+coefficient); what no part explains is an extra term. The comparison with the
+fewest differences is reported, with a numeric example.
+
+A claimed result is compared symbolically (``cancel`` decides for rational
+functions); when the expression has roots or other non-rational atoms and
+simplification does not settle it, at several random points (and the verdict
+says so). A wrong result is shown beside the solved one with their ratio or
+difference and a likely cause (sign, factor, swapped or mixed-up parameters).
+
+Written here because no library compares a hand derivation with a system of
+equations and explains the difference in terms of circuit parts.
+
+>>> from nodeterm.engine.loader import parse_circuit
+>>> from nodeterm.engine.system import build_system
+>>> c = parse_circuit('''
+... [parameters]
+... Vin = ""
+... R1 = ""
+... R2 = ""
+... [parts]
+... Vs = { kind = "vsource", nodes = ["in", "gnd"], value = "Vin" }
+... Ra = { kind = "resistor", nodes = ["in", "inv"], value = "R1" }
+... Rb = { kind = "resistor", nodes = ["inv", "out"], value = "R2" }
+... U1 = { kind = "opamp", plus = "gnd", minus = "inv", out = "out" }
+... [find]
+... gain = "V_out/V_in"
+... ''')
+>>> sys = build_system(c)
+>>> audit_claim(sys, "k", "R2*(V_inv - V_in) + R1*(V_inv - V_out) = 0").status
+'holds'
+>>> v = audit_claim(sys, "k", "(V_inv - V_in)/R1 - (V_inv - V_out)/R2 = 0")
+>>> v.status, v.matches
+('fails', ('KCL at inv',))
+>>> print(v.details["differences"][0])
+sign error on the term from Rb: it is (V_inv - V_out)/R2 (current leaving inv through Rb)
+>>> audit_claim(sys, "gain", "-R1/R2").details["cause"]
+'R1 and R2 are swapped'
+"""
+
+from __future__ import annotations
+
+import random
+from dataclasses import dataclass, field
+
+import sympy
+from sympy.solvers.solveset import NonlinearError
+
+from .expr import ExpressionError, parse_expression
+from .loader import quantity_resolver
+from .solve import solve_linear
+from .symbols import I, V, param
+
+HOLDS, FAILS, ERROR = "holds", "fails", "error"
+PRIMARY_KINDS = ("kcl", "supernode_kcl", "source_constraint", "opamp_gain")
+HELPER_KINDS = ("known_voltage", "opamp_equality")
+_ONE = "1"  # key of the constant coordinate in a linear form
+_NUMERIC_POINTS = 6
+_NUMERIC_TOL = 1e-9
+
+
+@dataclass(frozen=True)
+class Verdict:
+    """The audit's answer for one claim.
+
+    Attributes:
+        name: the claim's key (``[hand]`` key or the name typed in the UI).
+        status: "holds", "fails" or "error" (cannot be checked: bad claim).
+        kind: "equation" or "result".
+        message: one short, specific sentence.
+        matches: labels of the generated equations it matches (holds) or is closest to (fails).
+        step: 1-based number of the step those equations belong to, or None.
+        details: plain data (strings, lists, dicts) for reports: ``claim``, ``combination``,
+            ``differences``, ``example``, ``claimed``, ``solved``, ``ratio``, ``difference``,
+            ``cause``, ``method``, ``scale``, ``step_title``...
+        line, column: where the claim is in the file (1-based), when it came from a file.
+        text: the claim as written.
+    """
+
+    name: str
+    status: str
+    kind: str
+    message: str
+    matches: tuple[str, ...] = ()
+    step: int | None = None
+    details: dict = field(default_factory=dict)
+    line: int | None = None
+    column: int | None = None
+    text: str = ""
+
+    @property
+    def ok(self) -> bool:
+        return self.status == HOLDS
+
+
+def _t(expr) -> str:
+    return sympy.sstr(expr, order="none")
+
+
+def _zero(expr) -> bool:
+    return sympy.cancel(sympy.together(expr)) == 0
+
+
+class _BadClaim(Exception):
+    def __init__(self, message: str, column: int | None = None) -> None:
+        super().__init__(message)
+        self.message = message
+        self.column = column
+
+
+class Auditor:
+    """Checks claims against one system and its exact solution (built once, reused per claim).
+
+    Args:
+        system: the recorded node-voltage procedure (parameter substitutions included).
+        solution: its solution; solved here when not given (may raise SolveError).
+    """
+
+    def __init__(self, system, solution=None) -> None:
+        from .system import _Context  # the context the equations were written with
+        self.system = system
+        c = self.circuit = system.circuit
+        self.solution = solution if solution is not None else system.solve()
+        self.pvals = {param(n): v for n, v in system.values.items()}
+        self._names: list[str] = []
+        base = quantity_resolver(c.parameters, c.nodes, c.part_ids)
+
+        def resolve(name: str):
+            value = base(name)
+            if value is None:
+                self._names.append(name)
+            return value
+
+        self.resolve = resolve
+        ref = c.reference
+        self.quantities = {V(n) for n in c.nodes} | {I(p) for p in c.part_ids}
+        self.sol = {V(n): v for n, v in self.solution.node_voltages.items()}
+        self.sol.update({I(p): v for p, v in self.solution.currents.items()})
+        ctx = _Context(c, set(system.needed))
+        self.currents = {I(p.id): p.current(ctx, None) for p in c.parts if p.branch(ref) is None}
+        self.xs = list(system.unknowns)
+        self.equations = [e.subs(self.pvals) for e in system.equations]
+        self.elim = {k: sympy.sympify(v).xreplace(self.pvals) for k, v in system.eliminated.items()}
+        self.reduced_xs = list(system.reduced_unknowns)
+        self.step_of: dict[str, int] = {}
+        for i, step in enumerate(system.steps, start=1):
+            if step.kind in ("sources", "kcl", "opamps"):
+                for e in step.equations:
+                    self.step_of.setdefault(e.label, i)
+        self._forms = None
+
+    # --- parsing ------------------------------------------------------------
+    def _parse(self, text: str, offset: int, base_column: int | None) -> sympy.Expr:
+        self._names = []
+        try:
+            return parse_expression(text, self.resolve)
+        except ExpressionError as err:
+            col = None
+            if err.column:
+                col = (base_column + offset + err.column - 1) if base_column else offset + err.column
+            raise _BadClaim(self._explain(err), col) from None
+
+    def _explain(self, err: ExpressionError) -> str:
+        c = self.circuit
+        if err.message.startswith("unknown name") and self._names:
+            n = self._names[-1]
+            if n.startswith("V_"):
+                return f"V_{n[2:]} names node {n[2:]!r}, which is not in the circuit (nodes: {', '.join(c.nodes)})"
+            if n.startswith("I_"):
+                return f"I_{n[2:]} names part {n[2:]!r}, which is not in the circuit (parts: {', '.join(c.part_ids)})"
+            known = ", ".join(c.parameters) or "none"
+            return (f"unknown name {n!r}: not a parameter (parameters: {known}), V_<node>, I_<part> or s")
+        return err.message + (f" ({err.hint})" if err.hint else "")
+
+    def _prepare(self, expr: sympy.Expr) -> sympy.Expr:
+        """Part currents in node voltages, reference at 0 V, substituted parameter values."""
+        expr = expr.xreplace(self.currents).xreplace({V(self.circuit.reference): sympy.Integer(0)})
+        return expr.xreplace(self.pvals)
+
+    # --- public -------------------------------------------------------------
+    def check(self, name: str, text: str, line: int | None = None, column: int | None = None) -> Verdict:
+        """One verdict for the claim ``name`` written as ``text``."""
+        is_result = name in self.circuit.find
+        kind = "result" if is_result else "equation"
+        loc = dict(line=line, column=column, text=text)
+        try:
+            if is_result:
+                return self._result(name, text, column, loc)
+            return self._equation(name, text, column, loc)
+        except _BadClaim as bad:
+            where = f" at column {bad.column}" if bad.column else ""
+            return Verdict(name, ERROR, kind, f"claim {name!r}{where}: {bad.message}",
+                           details={"claim": text}, line=line, column=bad.column or column, text=text)
+
+    # --- claimed equations ----------------------------------------------------
+    def _equation(self, name: str, text: str, column: int | None, loc: dict) -> Verdict:
+        count = text.count("=")
+        if count == 0:
+            finds = ", ".join(self.circuit.find) or "none"
+            raise _BadClaim(f"no '=' in {text!r}: a claimed equation is written 'lhs = rhs' "
+                            f"(or use a [find] name as the key to claim a result; [find]: {finds})")
+        if count > 1 or "==" in text:
+            raise _BadClaim(f"more than one '=' in {text!r}: write one equation per key",
+                            text.index("=", text.index("=") + 1) + (column or 1))
+        left, right = text.split("=")
+        lhs = self._parse(left, 0, column)
+        rhs = self._parse(right, len(left) + 1, column)
+        if _zero(lhs - rhs):
+            raise _BadClaim(f"{text!r} is an identity (both sides are the same), so it checks nothing; "
+                            "write the equation you derived")
+        lhs_p, rhs_p = self._prepare(lhs), self._prepare(rhs)
+        r = lhs_p - rhs_p
+        holds, method = self._is_zero(r.xreplace(self.sol))
+        details: dict = {"claim": text}
+        if method == "numeric":
+            details["method"] = f"numeric check at {_NUMERIC_POINTS} random points (symbolic simplification inconclusive)"
+        if holds:
+            return self._holds(name, r, details, loc)
+        return self._fails(name, lhs_p, rhs_p, r, details, loc)
+
+    def _linear_claim(self, r: sympy.Expr) -> tuple[sympy.Expr, str] | None:
+        """The claim residual as a linear form in the unknowns (multiplied through if needed)."""
+        foreign = (r.free_symbols & self.quantities) - set(self.xs)
+        if foreign:
+            return None
+        form = _linear(r, self.xs)
+        if form is not None:
+            return r, ""
+        num, den = sympy.fraction(sympy.together(r))
+        if den.free_symbols & set(self.xs) and _linear(num, self.xs) is not None:
+            return num, f"multiplied through by {_t(den)}"
+        return None
+
+    def _generated_forms(self):
+        if self._forms is None:
+            self._forms = [_linear(e.residual, self.xs) for e in self.equations]
+        return self._forms
+
+    def _holds(self, name: str, r, details: dict, loc: dict) -> Verdict:
+        lin = self._linear_claim(r)
+        if _zero(r):
+            return Verdict(name, HOLDS, "equation", "holds: true by the definition of the part currents "
+                           "(nothing left once each I_<part> is written in node voltages)", details=details, **loc)
+        if lin is None or not self.xs:
+            return Verdict(name, HOLDS, "equation", "holds: satisfied by the exact solution (not a linear "
+                           "equation in the node voltages, so it is not matched to a generated equation)",
+                           details=details, **loc)
+        expr, note = lin
+        lam = self._combination(expr)
+        if lam is None:
+            return Verdict(name, HOLDS, "equation", "holds: satisfied by the exact solution",
+                           details=details, **loc)
+        if note:
+            details["scale"] = note
+        used = [(e, k) for e, k in zip(self.equations, lam) if k != 0]
+        primary = [(e, k) for e, k in used if e.kind in PRIMARY_KINDS]
+        helpers = [(e, k) for e, k in used if e.kind in HELPER_KINDS]
+        details["combination"] = {e.label: _t(k) for e, k in used}
+        help_text = ", ".join(f"{_eq_text(e)} ({e.label})" for e, _ in helpers)
+        if not used:
+            msg = "holds: true for the substituted parameter values (no node voltage in it)"
+            return Verdict(name, HOLDS, "equation", msg, details=details, **loc)
+        if len(primary) == 1:
+            e, k = primary[0]
+            msg = f"holds: matches {e.label}" + _scale_words(k)
+            if helpers:
+                msg += " after substituting " + help_text
+        elif primary:
+            msg = "holds: a combination of " + ", ".join(f"{e.label} (x {_t(k)})" for e, k in primary)
+            if helpers:
+                msg += ", with " + help_text
+        else:
+            e, k = helpers[0]
+            msg = f"holds: it is {e.label}" + _scale_words(k) if len(helpers) == 1 else "holds: it follows from " + help_text
+        main = primary or helpers
+        labels = tuple(e.label for e, _ in main)
+        step = self.step_of.get(labels[0])
+        if step:
+            details["step_title"] = self.system.steps[step - 1].title
+            msg += f" (step {step})"
+        return Verdict(name, HOLDS, "equation", msg, matches=labels, step=step, details=details, **loc)
+
+    def _combination(self, expr):
+        forms = self._generated_forms()
+        if any(f is None for f in forms) or len(forms) != len(self.xs):
+            return None
+        A = sympy.Matrix([[f.get(x, 0) for x in self.xs] for f in forms])
+        claim = _linear(expr, self.xs)
+        c = sympy.Matrix([claim.get(x, 0) for x in self.xs])
+        lam = solve_linear(A.T, c)
+        if lam is None:
+            return None
+        const = sum((k * f.get(_ONE, 0) for k, f in zip(lam, forms)), sympy.Integer(0))
+        if not _zero(const - claim.get(_ONE, 0)):
+            return None
+        return [sympy.cancel(k) for k in lam]
+
+    def _fails(self, name: str, lhs, rhs, r, details: dict, loc: dict) -> Verdict:
+        example = self._example(lhs, rhs)
+        if example:
+            details["example"] = example
+        lin = self._linear_claim(r)
+        best = None
+        if lin is not None:
+            expr, note = lin
+            if note:
+                details["scale"] = note
+            best = self._closest(expr)
+        ex = ""
+        if example:
+            vals = ", ".join(f"{k} = {v}" for k, v in example["values"].items())
+            sol = ", ".join(f"{k} = {v}" for k, v in example.get("solution", {}).items())
+            ex = "; e.g. " + (f"with {vals}" if vals else "") + (f" (so {sol})" if sol else "") + \
+                f": left side {example['lhs']}, right side {example['rhs']}"
+        if best is None:
+            return Verdict(name, FAILS, "equation", "fails: not satisfied by the solution and not close to any "
+                           "generated equation" + ex, details=details, **loc)
+        e, k, diffs, mode = best
+        details["closest"] = e.label
+        details["closest_equation"] = f"{_t(e.lhs)} = {_t(e.rhs)}"
+        details["differences"] = diffs
+        if k != 1:
+            details["scale"] = (details.get("scale", "") + "; " if details.get("scale") else "") + \
+                f"compared with {e.label} multiplied by {_t(k)}"
+        if mode == "reduced":
+            details["substituted"] = "compared after substituting the known voltages and input equalities"
+        step = self.step_of.get(e.label)
+        if step:
+            details["step_title"] = self.system.steps[step - 1].title
+        where = f" (step {step})" if step else ""
+        if mode == "reduced":
+            used = [f"{_t(x)} = {_t(v)}" for x, v in self.elim.items() if x in e.residual.free_symbols]
+            if used:
+                where = f" (step {step}, with {', '.join(used)})" if step else f" (with {', '.join(used)})"
+        msg = f"fails: closest to {e.label}{where}: {diffs[0]}" + (f" (+{len(diffs) - 1} more)" if len(diffs) > 1 else "")
+        return Verdict(name, FAILS, "equation", msg + ex, matches=(e.label,), step=step, details=details, **loc)
+
+    def _closest(self, r):
+        candidates = []
+        modes = [("full", r, self.xs, self.equations)]
+        if self.elim:
+            red = sympy.expand(r.xreplace(self.elim)) if r.free_symbols & set(self.elim) else r
+            modes.append(("reduced", red, self.reduced_xs, [e.subs(self.elim) for e in self.equations]))
+        for mode_rank, (mode, rr, xs, eqs) in enumerate(modes):
+            R = _linear(rr, xs)
+            if R is None or not R:
+                continue
+            for idx, (orig, e) in enumerate(zip(self.equations, eqs)):
+                if mode == "reduced" and e.kind in HELPER_KINDS:
+                    continue
+                terms = [(t.part, t.expr) for t in e.terms] if e.terms else []
+                if terms and not _zero(sum(t for _, t in terms) - e.residual):
+                    terms.append(("", e.residual - sum(t for _, t in terms)))
+                if not terms:
+                    terms = [("", e.residual)]
+                forms = [_linear(t, xs) for _, t in terms]
+                if any(f is None for f in forms):
+                    continue
+                total = _add_forms(forms)
+                if not total:
+                    continue
+                ks = []
+                for x, v in R.items():
+                    if x in total:
+                        k = sympy.cancel(v / total[x])
+                        if k not in ks:
+                            ks.append(k)
+                for k in ks:
+                    mu, left = _attribute(R, forms, k)
+                    score = sum(1 for m in mu if m != 1) + len(left)
+                    if score == 0:
+                        continue  # cannot happen for a failing claim; guard anyway
+                    rank = (score, mode_rank, _k_rank(k), 0 if e.kind in PRIMARY_KINDS else 1, idx)
+                    candidates.append((rank, orig, e, k, terms, mu, left, mode, xs))
+        if not candidates:
+            return None
+        candidates.sort(key=lambda c: c[0])
+        _, orig, e, k, terms, mu, left, mode, xs = candidates[0]
+        return orig, k, self._describe(e, terms, mu, left, k), mode
+
+    def _describe(self, e, terms, mu, left, k) -> list[str]:
+        node = e.at
+        out = []
+        for (part, t), m in zip(terms, mu):
+            if m == 1:
+                continue
+            what = f"the term from {part}" if part else f"{e.label}"
+            shown = f"{_t(t)} (current leaving {node} through {part})" if part and e.kind in ("kcl", "supernode_kcl") \
+                else _t(t)
+            if m == 0:
+                out.append(f"missing {what}: {shown}" if part else f"missing {_t(t)}")
+            elif m == -1:
+                out.append(f"sign error on {what}: it is {shown}")
+            elif m.is_number:
+                out.append(f"wrong coefficient on {what}: written as {_t(m)} x ({_t(t)}); it is {shown}")
+            else:
+                out.append(f"{what} is off by a factor {_t(m)}: written as {_t(sympy.cancel(m * t))}; it is {shown}"
+                           + _swap_hint(m))
+        if left:
+            extra = sum((v / k * (sympy.Integer(1) if x == _ONE else x) for x, v in left.items()), sympy.Integer(0))
+            at = f"at {node}" if e.kind in ("kcl", "supernode_kcl") else f"in {e.label}"
+            out.append(f"extra term {_t(sympy.cancel(extra) if extra.is_number else sympy.factor_terms(extra))} "
+                       f"that no part {at} gives")
+        return out or [f"differs from {e.label}"]
+
+    # --- examples -------------------------------------------------------------
+    def _example(self, lhs, rhs) -> dict | None:
+        """Values making the two sides differ (at the solution)."""
+        L, Rr = lhs.xreplace(self.sol), rhs.xreplace(self.sol)
+        used = sorted((lhs.free_symbols | rhs.free_symbols) & set(self.sol), key=str)
+        syms = set(L.free_symbols | Rr.free_symbols)
+        for u in used:
+            syms |= sympy.sympify(self.sol[u]).free_symbols
+        syms = sorted(syms, key=str)
+        primes = [2, 3, 5, 7, 11, 13, 17, 19, 23, 29, 31, 37]
+        for shift in range(4):
+            vals = {x: sympy.Integer(primes[(i + shift) % len(primes)]) for i, x in enumerate(syms)}
+            try:
+                a = sympy.cancel(L.xreplace(vals))
+                b = sympy.cancel(Rr.xreplace(vals))
+            except (ZeroDivisionError, ValueError):
+                continue
+            if a.has(sympy.zoo, sympy.nan) or b.has(sympy.zoo, sympy.nan) or a == b:
+                continue
+            out = {"values": {str(x): _t(v) for x, v in vals.items()}, "lhs": _t(a), "rhs": _t(b)}
+            if used:
+                out["solution"] = {str(u): _t(sympy.cancel(self.sol[u].xreplace(vals))) for u in used}
+            return out
+        return None
+
+    def _is_zero(self, expr) -> tuple[bool, str]:
+        d = sympy.cancel(sympy.together(expr))
+        if d == 0:
+            return True, "symbolic"
+        if not _irrational(d):
+            return False, "symbolic"
+        try:
+            if sympy.simplify(d) == 0:
+                return True, "symbolic"
+        except Exception:  # noqa: BLE001 - simplify can fail on odd input; fall back to numbers
+            pass
+        return _numeric_zero(d), "numeric"
+
+    # --- claimed results --------------------------------------------------------
+    def _result(self, name: str, text: str, column: int | None, loc: dict) -> Verdict:
+        offset = 0
+        if "=" in text:
+            left, right = text.split("=", 1)
+            if left.strip() != name or "=" in right:
+                raise _BadClaim(f"key {name!r} is a [find] name, so it holds a claimed result: write only the "
+                                f"expression (e.g. {name} = \"-Rf/Rin\"), not an equation")
+            offset, text_expr = len(left) + 1, right
+        else:
+            text_expr = text
+        expr = self._parse(text_expr, offset, column)
+        claimed = self._prepare(expr).xreplace(self.sol)
+        solved = self.solution.find[name]
+        holds, method = self._is_zero(claimed - solved)
+        details = {"claim": text, "claimed": _t(claimed), "solved": _t(solved),
+                   "method": "symbolic" if method == "symbolic" else
+                   f"numeric check at {_NUMERIC_POINTS} random points (symbolic simplification inconclusive)"}
+        if holds:
+            how = "" if method == "symbolic" else f" (numeric check at {_NUMERIC_POINTS} random points; " \
+                "symbolic simplification was inconclusive)"
+            return Verdict(name, HOLDS, "result", f"holds: equals the solved {name} = {_t(solved)}{how}",
+                           details=details, **loc)
+        ratio = sympy.cancel(claimed / solved) if solved != 0 else None
+        diff = sympy.cancel(claimed - solved)
+        if ratio is not None:
+            details["ratio"] = _t(ratio)
+        details["difference"] = _t(diff)
+        cause = _result_cause(claimed, solved, ratio, diff)
+        if cause:
+            details["cause"] = cause
+        example = self._example(self._prepare(expr), solved)
+        if example:
+            example = {**example, "claimed": example.pop("lhs"), "solved": example.pop("rhs")}
+            details["example"] = example
+        msg = f"fails: claimed {_t(claimed)}, solved {_t(solved)}"
+        if cause:
+            msg += f"; likely cause: {cause}"
+        elif ratio is not None and ratio.is_number:
+            msg += f"; ratio {_t(ratio)}"
+        else:
+            msg += f"; difference {_t(diff)}"
+        return Verdict(name, FAILS, "result", msg, details=details, **loc)
+
+
+# --- helpers -----------------------------------------------------------------------
+def _linear(expr, xs) -> dict | None:
+    """{unknown: coefficient, "1": constant} of an expression linear in ``xs``; None if not linear."""
+    expr = sympy.sympify(expr)
+    if not xs:
+        return {_ONE: sympy.cancel(expr)} if not _zero(expr) else {}
+    try:
+        A, b = sympy.linear_eq_to_matrix([expr], list(xs))
+    except (NonlinearError, ValueError):
+        return None
+    out = {}
+    for i, x in enumerate(xs):
+        v = sympy.cancel(A[0, i])
+        if v != 0:
+            if v.free_symbols & set(xs):
+                return None
+            out[x] = v
+    c = sympy.cancel(-b[0])
+    if c != 0:
+        out[_ONE] = c
+    return out
+
+
+def _add_forms(forms) -> dict:
+    total: dict = {}
+    for f in forms:
+        for x, v in f.items():
+            total[x] = total.get(x, 0) + v
+    return {x: sympy.cancel(v) for x, v in total.items() if not _zero(v)}
+
+
+def _attribute(R: dict, forms: list[dict], k) -> tuple[list, dict]:
+    """Multipliers of each part term (scaled by k) that best explain the claim R, and what is left."""
+    n = len(forms)
+    supports = [set(f) for f in forms]
+    mu: list = [None] * n
+    for j in range(n):
+        others = set().union(*(supports[i] for i in range(n) if i != j)) if n > 1 else set()
+        private = sorted(supports[j] - others, key=str)
+        if private:
+            x = private[0]
+            mu[j] = sympy.cancel(R.get(x, 0) / (k * forms[j][x]))
+    undetermined = [j for j in range(n) if mu[j] is None]
+    mu = [sympy.Integer(1) if m is None else m for m in mu]
+    left = _leftover(R, forms, mu, k)
+    if left:
+        fits = []
+        for j in range(n):
+            if set(left) != supports[j]:
+                continue
+            ratios = {sympy.cancel(left[x] / (k * forms[j][x])) for x in left}
+            if len(ratios) == 1:
+                ratio = ratios.pop()
+                fits.append((0 if ratio.is_number else 1, 0 if j in undetermined else 1, j, ratio))
+        if fits:
+            fits.sort(key=lambda f: f[:3])
+            _, _, j, ratio = fits[0]
+            mu[j] = sympy.cancel(mu[j] + ratio)
+            left = _leftover(R, forms, mu, k)
+    return mu, left
+
+
+def _leftover(R, forms, mu, k) -> dict:
+    coords = set(R).union(*[set(f) for f in forms])
+    left = {}
+    for x in coords:
+        v = sympy.cancel(R.get(x, 0) - sum((m * k * f.get(x, 0) for m, f in zip(mu, forms)), sympy.Integer(0)))
+        if v != 0:
+            left[x] = v
+    return left
+
+
+def _k_rank(k) -> int:
+    if k == 1:
+        return 0
+    if k.is_number:
+        return 1 if k > 0 else 4
+    plain = abs(k.as_coeff_Mul()[0]) == 1  # multiplied through by parameters, no stray number
+    return (2 if plain else 3) if not k.could_extract_minus_sign() else (4 if plain else 5)
+
+
+def _eq_text(e) -> str:
+    """An equation as the engineer would write it; an input equality as V_minus = V_plus."""
+    if e.kind == "opamp_equality":
+        return f"{_t(e.rhs)} = {_t(e.lhs)}"
+    return f"{_t(e.lhs)} = {_t(e.rhs)}"
+
+
+def _scale_words(k) -> str:
+    if k == 1:
+        return ""
+    if k == -1:
+        return ""  # the same equation with its sides swapped or negated
+    return f" (multiplied by {_t(k)})"
+
+
+def _swap_hint(m) -> str:
+    num, den = sympy.fraction(sympy.cancel(m))
+    if isinstance(num, sympy.Symbol) and isinstance(den, sympy.Symbol):
+        return f" ({den} written where {num} belongs?)"
+    return ""
+
+
+def _irrational(expr) -> bool:
+    """True when ``cancel`` alone may not decide whether ``expr`` is zero (roots, functions)."""
+    for a in sympy.preorder_traversal(expr):
+        if isinstance(a, sympy.Pow) and not a.exp.is_Integer:
+            return True
+        if isinstance(a, sympy.Function):
+            return True
+    return False
+
+
+def _numeric_zero(expr) -> bool:
+    """Zero at several random positive points (relative to the size of the terms)?"""
+    syms = sorted(expr.free_symbols, key=str)
+    rng = random.Random(1729)  # reproducible: a verdict must not change between runs
+    f = sympy.lambdify(syms, expr, modules="mpmath")
+    import mpmath
+    mpmath.mp.dps = 30
+    for _ in range(_NUMERIC_POINTS):
+        point = [mpmath.mpf(rng.uniform(0.5, 5.0)) for _ in syms]
+        try:
+            value = complex(f(*point))
+        except (ZeroDivisionError, ValueError, TypeError):
+            continue
+        if abs(value) > _NUMERIC_TOL:
+            return False
+    return True
+
+
+def _result_cause(claimed, solved, ratio, diff) -> str:
+    """A likely cause of a wrong result, when one is detectable."""
+    if ratio is not None:
+        if ratio == -1:
+            return "sign error (the claim is the negative of the result)"
+        if ratio in (2, sympy.Rational(1, 2), -2, -sympy.Rational(1, 2)):
+            return f"a factor of {_t(ratio)}" + (" and a sign error" if ratio < 0 else "")
+        if ratio.is_number:
+            return f"a constant factor of {_t(ratio)}"
+    params = sorted((claimed.free_symbols | solved.free_symbols) - {sympy.Symbol("s")}, key=str)
+    params = params[:12]  # a few dozen pairs at most
+    for i, a in enumerate(params):
+        for b in params[i + 1:]:
+            swapped = claimed.xreplace({a: b, b: a})
+            if _zero(swapped - solved):
+                return f"{a} and {b} are swapped"
+            if _zero(swapped + solved):
+                return f"{a} and {b} are swapped, and the sign is wrong"
+    if claimed != 0 and solved != 0 and _zero(claimed * solved - 1):
+        return "upside down (the claim is 1 over the result)"
+    for a in params:
+        for b in params:
+            if a != b and a in claimed.free_symbols and _zero(claimed.xreplace({a: b}) - solved):
+                return f"{a} written where {b} belongs"
+    if diff.is_number:
+        return f"off by a constant {_t(diff)} (e.g. a missing '1 +')" if abs(diff) == 1 else ""
+    return ""
+
+
+# --- module entry points ---------------------------------------------------------------
+def audit_claim(system, name: str, text: str, *, solution=None, line: int | None = None,
+                column: int | None = None) -> Verdict:
+    """Check one claim (e.g. typed in the UI). ``name`` equal to a ``[find]`` name means a claimed result.
+
+    Raises:
+        SolveError: when the circuit itself cannot be solved.
+    """
+    return Auditor(system, solution).check(name, text, line, column)
+
+
+def audit_claims(system, claims: dict[str, str] | None = None, *, solution=None) -> list[Verdict]:
+    """One verdict per claim, in order.
+
+    Args:
+        system: the recorded system (with any parameter substitutions).
+        claims: name -> text; None means the circuit's ``[hand]`` table (with file lines and columns).
+        solution: the system's solution if already computed.
+
+    Raises:
+        SolveError: when the circuit itself cannot be solved.
+    """
+    auditor = Auditor(system, solution)
+    if claims is None:
+        return [auditor.check(h.name, h.text, h.line, h.column) for h in system.circuit.hand.values()]
+    return [auditor.check(n, t) for n, t in claims.items()]
+
+
+def summary(verdicts: list[Verdict]) -> str:
+    """'3 claims: 2 hold, 1 fails' style one-liner."""
+    n = len(verdicts)
+    counts = {st: sum(1 for v in verdicts if v.status == st) for st in (HOLDS, FAILS, ERROR)}
+    parts = [f"{counts[HOLDS]} hold{'s' if counts[HOLDS] == 1 else ''}",
+             f"{counts[FAILS]} fail{'s' if counts[FAILS] == 1 else ''}"]
+    if counts[ERROR]:
+        parts.append(f"{counts[ERROR]} cannot be checked")
+    return f"{n} claim{'s' if n != 1 else ''}: " + ", ".join(parts)
+
+
+def exit_status(verdicts: list[Verdict]) -> int:
+    """0 every claim holds, 1 any fails, 2 any claim is bad input (cannot be parsed or checked)."""
+    if any(v.status == ERROR for v in verdicts):
+        return 2
+    if any(v.status == FAILS for v in verdicts):
+        return 1
+    return 0
+
+
+__all__ = ["Auditor", "Verdict", "audit_claim", "audit_claims", "exit_status", "summary",
+           "HOLDS", "FAILS", "ERROR"]
