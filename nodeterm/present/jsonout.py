@@ -51,3 +51,54 @@ def _num(e) -> str:
 
 def to_json(system, solution=None, numeric: bool = False) -> str:
     return json.dumps(solution_dict(system, solution, numeric), indent=2, ensure_ascii=False)
+
+
+# --- steps and audit verdicts (nodeterm check --json, nodeterm export --to json) -----------------
+def _plain(value):
+    """Step data as JSON-ready values (expressions as SymPy-syntax strings)."""
+    if isinstance(value, dict):
+        return {str(k): _plain(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_plain(v) for v in value]
+    if isinstance(value, (str, int, float, bool)) or value is None:
+        return value
+    return expr_text(value)
+
+
+def steps_list(system) -> list[dict]:
+    """Every recorded step: kind, title, text, equations (with per-part terms for KCL), data."""
+    out = []
+    for i, step in enumerate(system.steps, start=1):
+        eqs = []
+        for e in step.equations:
+            d = _eq(e)
+            if e.terms:
+                d["terms"] = [{"part": t.part, "expr": expr_text(t.expr)} for t in e.terms]
+            eqs.append(d)
+        out.append({"number": i, "kind": step.kind, "title": step.title, "text": step.text, "equations": eqs,
+                    "data": _plain(step.data)})
+    return out
+
+
+def verdict_dict(v) -> dict:
+    """One audit verdict as plain data."""
+    return {"name": v.name, "status": v.status, "kind": v.kind, "message": v.message, "text": v.text,
+            "matches": list(v.matches), "step": v.step, "line": v.line, "column": v.column,
+            "details": _plain(v.details)}
+
+
+def check_dict(system, verdicts) -> dict:
+    """What ``nodeterm check --json`` prints."""
+    from nodeterm.engine.audit import exit_status, summary
+    return {"file": system.circuit.path, "title": system.circuit.title, "summary": summary(verdicts),
+            "exit_status": exit_status(verdicts), "verdicts": [verdict_dict(v) for v in verdicts]}
+
+
+def export_dict(system, solution, verdicts, note: str = "") -> dict:
+    """The ``solve --json`` contract plus ``steps``, ``verdicts`` and the bench ``note``."""
+    out = solution_dict(system, solution)
+    out["steps"] = steps_list(system)
+    out["verdicts"] = [verdict_dict(v) for v in verdicts or []]
+    if note:
+        out["note"] = note
+    return out

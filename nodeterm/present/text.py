@@ -72,3 +72,62 @@ def report(system, solution, ascii_only: bool = False) -> str:
     if ascii_only:
         text = text.replace("≈", "~").replace("µ", "u").replace("Ω", "ohm")
     return text
+
+
+# --- audit verdicts (nodeterm check, exports) -----------------------------------------
+_STATUS_WORD = {"holds": "holds", "fails": "FAILS", "error": "ERROR"}
+
+
+def verdict_lines(verdicts, path: str | None = None) -> list[str]:
+    """One headline per verdict (``FILE:LINE:COL: name: message``) and indented details for failures."""
+    out: list[str] = []
+    for v in verdicts:
+        loc = ""
+        if path:
+            loc = f"{path}:{v.line}:{v.column}: " if v.line and v.column else (f"{path}:{v.line}: " if v.line
+                                                                                 else f"{path}: ")
+        out.append(f"{loc}{v.name} [{_STATUS_WORD.get(v.status, v.status)}] {v.message}")
+        d = v.details
+        if v.status == "fails":
+            out.append(f"    claim:     {d.get('claim', v.text)}")
+            if "closest_equation" in d:
+                out.append(f"    generated: [{d.get('closest')}]  {d['closest_equation']}")
+            for extra in ("scale", "substituted"):
+                if extra in d:
+                    out.append(f"    note:      {d[extra]}")
+            for diff in d.get("differences", [])[1:]:
+                out.append(f"    also:      {diff}")
+            if v.kind == "result":
+                for key in ("ratio", "difference"):
+                    if key in d:
+                        out.append(f"    {key + ':':<10} {d[key]}")
+                ex = d.get("example")
+                if ex:
+                    vals = ", ".join(f"{k} = {val}" for k, val in ex["values"].items())
+                    out.append(f"    example:   with {vals}: claimed {ex['claimed']}, solved {ex['solved']}")
+    return out
+
+
+def verdicts_text(verdicts, path: str | None = None, ascii_only: bool = False) -> str:
+    """The audit section of a report, ending with the one-line summary."""
+    from nodeterm.engine.audit import summary
+    lines = verdict_lines(verdicts, path) + [summary(verdicts)]
+    return to_ascii("\n".join(lines) + "\n") if ascii_only else "\n".join(lines) + "\n"
+
+
+_ASCII = {"≈": "~", "µ": "u", "μ": "u", "Ω": "ohm", "×": "x", "·": "*", "→": "->", "←": "<-", "—": "-",
+          "–": "-", "−": "-", "°": " deg", "±": "+/-", "≤": "<=", "≥": ">=", "≠": "!=", "’": "'", "‘": "'",
+          "“": '"', "”": '"', "…": "..."}
+
+
+def to_ascii(text: str) -> str:
+    """Strictly 7-bit text: common symbols spelled out, accents dropped, anything else as '?'.
+
+    >>> to_ascii("≈ 4.7 kΩ, 10 µA, café")
+    '~ 4.7 kohm, 10 uA, cafe'
+    """
+    import unicodedata
+    for k, v in _ASCII.items():
+        text = text.replace(k, v)
+    text = unicodedata.normalize("NFKD", text)
+    return "".join(ch for ch in text if not unicodedata.combining(ch)).encode("ascii", "replace").decode("ascii")

@@ -1,0 +1,68 @@
+"""``nodeterm check`` and ``nodeterm export``: the audit and the exports from the command line.
+
+``check FILE`` prints one verdict per ``[hand]`` claim and exits with
+0 when every claim holds, 1 when any claim does not hold, 2 on bad input: a
+file that does not load, a circuit that cannot be solved, no ``[hand]`` table,
+or a claim that cannot be checked (unparseable, unknown name, no ``=``, an
+identity) -- such a claim is reported as an ``error`` verdict and the rest are
+still checked.
+
+``export FILE --to FORMAT`` prints the report, or writes it atomically with
+``-o PATH`` (``--force`` to replace an existing file). Neither imports Textual.
+"""
+
+from __future__ import annotations
+
+import json
+import sys
+
+from .cli import add_common, command, prepare, register_subcommand
+from .engine import InputError
+from .engine.audit import audit_claims, exit_status
+from .present.export import FORMATS, render, write_atomic
+
+
+@register_subcommand
+def _add_parsers(sub) -> None:
+    p = sub.add_parser("check", help="audit the [hand] derivation: one verdict per claim "
+                                     "(exit 0 all hold, 1 any fails, 2 bad input)")
+    add_common(p)
+    p.add_argument("--json", action="store_true", help="print the verdicts as one JSON object")
+    p = sub.add_parser("export", help="write the steps, equations, matrix, results and audit in a format")
+    add_common(p)
+    p.add_argument("--to", required=True, choices=FORMATS, metavar="FORMAT",
+                   help="one of: " + ", ".join(FORMATS))
+    p.add_argument("-o", "--output", metavar="PATH", help="write to PATH (atomically) instead of printing")
+    p.add_argument("--force", action="store_true", help="replace PATH if it exists")
+
+
+@command("check")
+def cmd_check(args) -> int:
+    from .present.jsonout import check_dict
+    from .present.text import verdicts_text
+    system = prepare(args)
+    circuit = system.circuit
+    if not circuit.hand:
+        raise InputError("no claims to check: the file has no [hand] table",
+                         hint='add [hand] with your equations, e.g. kcl_inv = "(V_inv - V_in)/R1 + '
+                              '(V_inv - V_out)/R2 = 0" (see docs/circuit-file.md)', file=circuit.path)
+    verdicts = audit_claims(system)
+    if args.json:
+        print(json.dumps(check_dict(system, verdicts), indent=2, ensure_ascii=False))
+    else:
+        sys.stdout.write(verdicts_text(verdicts, circuit.path))
+    return exit_status(verdicts)
+
+
+@command("export")
+def cmd_export(args) -> int:
+    system = prepare(args)
+    solution = system.solve()
+    verdicts = audit_claims(system, solution=solution) if system.circuit.hand else []
+    text = render(system, solution, verdicts, args.to)
+    if args.output:
+        size = write_atomic(args.output, text, force=args.force)
+        print(f"nodeterm: wrote {args.output} ({args.to}, {size} bytes)", file=sys.stderr)
+    else:
+        sys.stdout.write(text)
+    return 0
