@@ -1,0 +1,432 @@
+"""The nodeterm workbench: a thin Textual application over the engine's recorded procedure.
+
+The App wires panes to the :class:`~.session.Session`; every action is
+guarded (:mod:`.safety`) so that a failure shows a message, is logged, and
+leaves the last good state on screen. Solving runs in a thread worker that
+can be cancelled; its results are dropped when they belong to an older system.
+"""
+
+from __future__ import annotations
+
+import os
+import time
+from functools import partial
+
+from textual import on, work
+from textual.app import App, SystemCommand
+from textual.binding import Binding
+from textual.reactive import var
+from textual.widgets import Footer, Input, Static, TabbedContent, TabPane
+from textual.worker import get_current_worker
+
+from ..engine import InputError, load_circuit
+from ..present.text import matrix_lines, report, steps_lines
+from .circuit_pane import CircuitPane
+from .dialogs import ConfirmScreen, HelpScreen, PathScreen
+from .files import write_atomic
+from .keys import KEYS, help_text
+from .matrix_pane import MatrixPane
+from .results_pane import ResultsPane
+from .safety import describe, guarded, logger
+from .session import Session
+from .steps_pane import StepsPane
+from .values_pane import ValuesPane
+
+PANES = ("circuit", "steps", "values", "matrix", "results")
+POLL_SECONDS = 1.0
+
+
+class Workbench(App):
+    """Walk a circuit's node equations, substitute values, read the matrix and the results."""
+
+    CSS_PATH = "workbench.tcss"
+    TITLE = "nodeterm"
+    BINDINGS = [Binding(k.keys, k.action, k.shown or k.title, show=bool(k.shown)) for k in KEYS]
+
+    system = var(None, always_update=True)
+    two_d = var(False)
+
+    def __init__(self, path: str | None = None, poll: bool = True) -> None:
+        super().__init__()
+        self.start_path = path
+        self.poll = poll
+        self.session = Session()
+        self.solution = None        # solution of self.system, when known
+        self.matrix_form = None
+        self.busy_since: float | None = None
+        self.busy_what = ""
+        self.last_error = ""        # last message shown (tests and the status line read it)
+
+    # --- layout -----------------------------------------------------------
+    def compose(self):
+        yield Static("", id="status", markup=False)
+        yield Static("", id="problem", markup=False)
+        with TabbedContent(id="panes", initial="steps"):
+            with TabPane("1 Circuit", id="circuit"):
+                yield CircuitPane(id="circuit-pane")
+            with TabPane("2 Steps", id="steps"):
+                yield StepsPane(id="steps-pane")
+            with TabPane("3 Values", id="values"):
+                yield ValuesPane(id="values-pane")
+            with TabPane("4 Matrix", id="matrix"):
+                yield MatrixPane(id="matrix-pane")
+            with TabPane("5 Results", id="results"):
+                yield ResultsPane(id="results-pane")
+        yield Footer()
+
+    def on_mount(self) -> None:
+        self.query_one("#problem").display = False
+        self.set_interval(0.5, self._tick)
+        if self.poll:
+            self.set_interval(POLL_SECONDS, self.poll_file)
+        self.open_path(self.start_path)
+        self.query_one("#equation-list").focus()
+
+    # --- errors -------------------------------------------------------------
+    def report_error(self, exc: BaseException, doing: str = "") -> None:
+        """Show a failure as a message and log it; the state on screen is untouched."""
+        msg = describe(exc)
+        self.last_error = msg
+        if isinstance(exc, InputError):
+            logger().info("%s: %s", doing, msg)
+        else:
+            logger().error("%s failed", doing, exc_info=exc)
+        self.notify(msg, title=f"could not {doing}" if doing else "error", severity="error", timeout=10)
+
+    def _set_problem(self, text: str) -> None:
+        problem = self.query_one("#problem", Static)
+        problem.update(f"! {text}" if text else "")
+        problem.display = bool(text)
+
+    # --- loading ------------------------------------------------------------
+    @guarded
+    def open_path(self, path: str | None) -> None:
+        """Open a circuit file (the bundled demo when ``path`` is None)."""
+        if path is None:
+            from ..cli import demo_path
+            path = demo_path()
+        try:
+            self.session.open(path)
+        except InputError as err:
+            if self.session.loaded:
+                self._set_problem(f"{err}  (still showing {os.path.basename(self.session.path)})")
+            else:
+                self._set_problem(str(err))
+            raise
+        self._set_problem("")
+        self.query_one(StepsPane).index = 0
+        self.system = self.session.system
+
+    def try_open(self, path: str) -> str | None:
+        """Open ``path``; return the error text instead of raising (for the open dialog)."""
+        try:
+            load_circuit(path)
+        except InputError as err:
+            return str(err)
+        self.open_path(path)
+        return None
+
+    @guarded
+    def reload(self) -> None:
+        """Load the file again; a file that no longer loads keeps the last good state on screen."""
+        try:
+            dropped = self.session.reload()
+        except InputError as err:
+            self._set_problem(f"file no longer loads, showing the last good version: {err}")
+            raise
+        self._set_problem("")
+        for note in dropped:
+            self.notify(note, severity="warning", timeout=8)
+        self.system = self.session.system
+        self.notify(f"reloaded {os.path.basename(self.session.path)}", timeout=3)
+
+    @guarded
+    def poll_file(self) -> None:
+        """Reload when the file changed on disk (called every second)."""
+        if self.session.loaded and self.session.changed_on_disk():
+            self.reload()
+
+    # --- showing ------------------------------------------------------------
+    def watch_system(self, system) -> None:
+        if system is None:
+            return
+        self.solution = self.matrix_form = None
+        self.query_one(CircuitPane).show(system)
+        self.query_one(StepsPane).show(system)
+        self.query_one(ValuesPane).show(system, self.session.describe_ops())
+        self.query_one(MatrixPane).show_note("computing the matrix...")
+        self.query_one(ResultsPane).show_note("solving...")
+        self.start_solve()
+
+    def watch_two_d(self, two_d: bool) -> None:
+        self.query_one(StepsPane).set_two_d(two_d)
+        if self.solution is not None:
+            self.query_one(ResultsPane).show_solution(self.system, self.solution, two_d)
+
+    @on(StepsPane.StepChanged)
+    def _step_changed(self) -> None:
+        self._update_status()
+
+    def _update_status(self) -> None:
+        if not self.is_mounted:
+            return
+        parts = []
+        if self.session.path:
+            parts.append(os.path.basename(self.session.path))
+        steps = self.query_one(StepsPane)
+        if steps.steps:
+            parts.append(f"step {steps.index + 1}/{len(steps.steps)}")
+        if self.system is not None:
+            n = len(self.system.values)
+            parts.append(f"{n} value{'s' if n != 1 else ''} substituted" if n else "symbolic")
+        parts.append("2-D form" if self.two_d else "one-line form")
+        if self.busy_since is not None:
+            parts.append(f"BUSY {self.busy_what} {time.monotonic() - self.busy_since:.0f}s (c cancels)")
+        self.query_one("#status", Static).update(" | ".join(parts))
+
+    def _tick(self) -> None:
+        self._update_status()
+
+    # --- solving in a worker ------------------------------------------------
+    def start_solve(self) -> None:
+        if self.system is None:
+            return
+        self.busy_since, self.busy_what = time.monotonic(), "solving"
+        self._update_status()
+        self._solve_worker(self.system)
+
+    @work(thread=True, exclusive=True, group="solve")
+    def _solve_worker(self, system) -> None:
+        worker = get_current_worker()
+        matrix = solution = error = None
+        try:
+            matrix = system.matrix()
+            if not worker.is_cancelled:
+                self.call_from_thread(self._solved, system, matrix, None, None, False)
+            solution = system.solve()
+        except Exception as exc:  # noqa: BLE001 - reported on screen by _solved
+            error = exc
+        if not worker.is_cancelled:
+            self.call_from_thread(self._solved, system, matrix, solution, error, True)
+
+    @guarded
+    def _solved(self, system, matrix, solution, error, done: bool) -> None:
+        if system is not self.system:
+            return  # a result for an older system: drop it
+        if matrix is not None and self.matrix_form is None:
+            self.matrix_form = matrix
+            self.query_one(MatrixPane).show_matrix(matrix)
+        if not done:
+            return
+        self.busy_since = None
+        if error is not None:
+            note = describe(error)
+            if matrix is None:
+                self.query_one(MatrixPane).show_note(f"no matrix: {note}")
+            self.query_one(ResultsPane).show_note(f"no results: {note}")
+            self.report_error(error, "solve")
+        else:
+            self.solution = solution
+            self.query_one(ResultsPane).show_solution(system, solution, self.two_d)
+        self._update_status()
+
+    # --- actions (each calls a public method; all guarded) ------------------
+    @guarded
+    def action_help(self) -> None:
+        self.push_screen(HelpScreen(help_text()))
+
+    @guarded
+    def action_pane(self, name: str) -> None:
+        self.show_pane(name)
+
+    def show_pane(self, name: str) -> None:
+        self.query_one(TabbedContent).active = name
+        target = {"steps": "#equation-list", "values": "#param-list"}.get(name)
+        if target:
+            self.query_one(target).focus()
+        else:
+            self.query_one(f"#{name}-pane").focus()
+
+    @guarded
+    def action_next_step(self) -> None:
+        self.step(+1)
+
+    @guarded
+    def action_previous_step(self) -> None:
+        self.step(-1)
+
+    def step(self, delta: int) -> bool:
+        """Walk the procedure; shows the steps pane."""
+        if self.query_one(TabbedContent).active != "steps":
+            self.show_pane("steps")
+        moved = self.query_one(StepsPane).go(delta)
+        if not moved:
+            self.notify("already at the " + ("last" if delta > 0 else "first") + " step", timeout=2)
+        return moved
+
+    @guarded
+    def action_type_value(self) -> None:
+        self.show_pane("values")
+        self.query_one(ValuesPane).focus_value()
+
+    @on(ValuesPane.Apply)
+    @guarded
+    def _apply_value(self, event: ValuesPane.Apply) -> None:
+        self.substitute(event.name, event.value)
+
+    def substitute(self, name: str, value: str) -> bool:
+        """Substitute one value; a bad value is explained under the value box."""
+        pane = self.query_one(ValuesPane)
+        try:
+            self.session.substitute(name, value)
+        except InputError as err:
+            pane.show_error(f"! {err.message}" + (f"; {err.hint}" if err.hint else ""))
+            return False
+        pane.applied()
+        self.system = self.session.system
+        self.notify(f"substituted {name} = {value}", timeout=3)
+        return True
+
+    @guarded
+    def action_substitute_known(self) -> None:
+        self.substitute_known()
+
+    def substitute_known(self) -> bool:
+        if not self.session.substitute_known():
+            self.notify("every value the file gives is already substituted", timeout=3)
+            return False
+        self.system = self.session.system
+        self.notify("substituted every value the file gives", timeout=3)
+        return True
+
+    @guarded
+    def action_undo(self) -> None:
+        self.undo()
+
+    def undo(self) -> bool:
+        if not self.session.undo():
+            self.notify("nothing to undo", timeout=2)
+            return False
+        self.system = self.session.system
+        self.notify("took back the last substitution", timeout=3)
+        return True
+
+    @guarded
+    def action_toggle_form(self) -> None:
+        self.two_d = not self.two_d
+        self._update_status()
+
+    @guarded
+    def action_solve(self) -> None:
+        self.solution = self.matrix_form = None
+        self.start_solve()
+
+    @guarded
+    def action_cancel(self) -> None:
+        self.cancel_solve()
+
+    def cancel_solve(self) -> bool:
+        if self.busy_since is None:
+            return False
+        self.workers.cancel_group(self, "solve")
+        self.busy_since = None
+        if self.matrix_form is None:
+            self.query_one(MatrixPane).show_note("cancelled (s solves again)")
+        self.query_one(ResultsPane).show_note("solve cancelled (s solves again)")
+        self.notify("solve cancelled", timeout=3)
+        self._update_status()
+        return True
+
+    @guarded
+    def action_leave(self) -> None:
+        if isinstance(self.focused, Input):
+            self.query_one("#param-list").focus()
+        elif self.busy_since is not None:
+            self.cancel_solve()
+
+    @guarded
+    def action_open_file(self) -> None:
+        start = os.path.dirname(self.session.path or "") + os.sep if self.session.path else ""
+        self.push_screen(PathScreen("Open a circuit file (TOML):", start, check=self.try_open))
+
+    @guarded
+    def action_reload(self) -> None:
+        self.reload()
+
+    @guarded
+    def action_export(self) -> None:
+        default = os.path.join(os.getcwd(), self.export_name())
+        self.push_screen(PathScreen("Export the equation set as plain text to:", default),
+                         callback=self._export_to)
+
+    def export_name(self) -> str:
+        stem = os.path.splitext(os.path.basename(self.session.path or "circuit"))[0]
+        return f"{stem}-equations.txt"
+
+    def export_text(self) -> str:
+        """The plain-text equation set of what is on screen (with results when solved)."""
+        system = self.system
+        if self.solution is not None:
+            return report(system, self.solution)
+        lines = steps_lines(system) + ["Matrix form A x = b"]
+        lines += ["  " + ln for ln in matrix_lines(self.matrix_form or system.matrix())]
+        lines += ["", "(results not included: the solve had not finished)"]
+        return "\n".join(lines) + "\n"
+
+    @guarded
+    def _export_to(self, path: str | None) -> None:
+        if not path:
+            return
+        if os.path.exists(path):
+            self.push_screen(ConfirmScreen(f"{path} exists. Replace it?", "Replace", "Keep it"),
+                             callback=lambda yes: self.export(path) if yes else None)
+        else:
+            self.export(path)
+
+    def export(self, path: str) -> bool:
+        """Write the equation set to ``path`` atomically; a failure is reported and leaves no file."""
+        try:
+            write_atomic(path, self.export_text())
+        except OSError as err:
+            self.report_error(InputError(f"cannot write {path}: {err.strerror or err}",
+                                         hint="choose another folder or name"), "export")
+            return False
+        self.notify(f"wrote {path}", timeout=5)
+        return True
+
+    def pending_input(self) -> list[str]:
+        """What the user typed and has not applied (quitting would lose it)."""
+        pending = []
+        value = self.query_one(ValuesPane).pending
+        if value:
+            pending.append(f"the value {value!r} typed for {self.query_one(ValuesPane).selected}")
+        return pending
+
+    @guarded
+    def action_quit(self) -> None:
+        self.request_quit()
+
+    def request_quit(self) -> None:
+        """Quit, asking first when typed input would be lost."""
+        pending = self.pending_input()
+        if not pending:
+            self.exit(0)
+            return
+        question = "Quit and lose " + " and ".join(pending) + "?"
+        self.push_screen(ConfirmScreen(question, "Quit", "Stay"),
+                         callback=lambda yes: self.exit(0) if yes else None)
+
+    # --- command palette: every action by name --------------------------------
+    def get_system_commands(self, screen):
+        for key in KEYS:
+            if key.action in ("leave",):
+                continue
+            yield SystemCommand(key.title, f"key: {key.display}", partial(self.run_action, key.action))
+        yield SystemCommand("Theme", "Change the colour theme", self.action_change_theme)
+
+
+def run(path: str | None) -> int:
+    """Run the workbench on ``path`` (the bundled demo when None); returns the exit status."""
+    app = Workbench(path)
+    result = app.run()
+    return result if isinstance(result, int) else (app.return_code or 0)

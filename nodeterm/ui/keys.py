@@ -1,0 +1,64 @@
+"""The workbench's keys: one table feeds the bindings, the help screen and the command palette."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+
+@dataclass(frozen=True)
+class Key:
+    keys: str          # Textual key names, comma separated
+    action: str        # action string, e.g. "pane('steps')"
+    title: str         # what it does (also the command palette entry)
+    shown: str = ""    # label in the footer ("" = not in the footer)
+
+    @property
+    def display(self) -> str:
+        names = {"question_mark": "?", "escape": "Esc", "f1": "F1", "ctrl+p": "Ctrl+P", "ctrl+q": "Ctrl+Q",
+                 "left": "Left", "right": "Right"}
+        return "/".join(names.get(k, k) for k in self.keys.split(","))
+
+
+KEYS: tuple[Key, ...] = (
+    Key("question_mark,f1", "help", "Help: list every key", "help"),
+    Key("1", "pane('circuit')", "Show the circuit: parts, nodes, parameters"),
+    Key("2", "pane('steps')", "Show the procedure steps and equations"),
+    Key("3", "pane('values')", "Show the parameter values to substitute"),
+    Key("4", "pane('matrix')", "Show the matrix A x = b"),
+    Key("5", "pane('results')", "Show the results: voltages, currents, [find]"),
+    Key("n", "next_step", "Next step of the procedure", "next"),
+    Key("b", "previous_step", "Back one step of the procedure", "back"),
+    Key("v", "type_value", "Type a value for a parameter", "value"),
+    Key("k", "substitute_known", "Substitute every value the file gives", "known"),
+    Key("u", "undo", "Undo the last substitution", "undo"),
+    Key("f", "toggle_form", "Equation form: one line or 2-D"),
+    Key("s", "solve", "Solve again"),
+    Key("c", "cancel", "Cancel a running solve"),
+    Key("o", "open_file", "Open another circuit file"),
+    Key("r", "reload", "Reload the circuit file from disk"),
+    Key("e", "export", "Export the equation set to a file", "export"),
+    Key("escape", "leave", "Leave a text box (back to the keys above)"),
+    Key("q,ctrl+q", "quit", "Quit (asks first if a typed value would be lost)", "quit"),
+)
+
+PANE_HELP = """\
+Panes (keys 1-5, or Tab/Shift+Tab between the widgets):
+  1 Circuit  parts with nodes and values, nodes (reference, op-amp outputs), parameters
+  2 Steps    the procedure step by step: n next, b back. Up/down picks an equation:
+             its parts get * in the parts list. Tab to the parts list: the picked
+             part's terms get * in the equations. The picked item carries ▶.
+  3 Values   pick a parameter, Tab to the box, type a value (e.g. 4.7k, 100nF,
+             Gain*Rin), Enter applies; a bad value is explained under the box.
+  4 Matrix   A x = b with one row per equation and one column per unknown
+  5 Results  node voltages, part currents, op-amp output currents, source currents,
+             [find] quantities; exact, with engineering values when numeric
+
+The file is reloaded when it changes on disk; if it no longer loads, its error is
+shown on the second line and the last good version stays on screen.
+Ctrl+P opens the command palette: every action below is there by name.
+"""
+
+
+def help_text(extra: tuple[Key, ...] = ()) -> str:
+    rows = [f"  {k.display:<14} {k.title}" for k in KEYS + extra]
+    return "nodeterm workbench: keys\n\n" + "\n".join(rows) + "\n  Ctrl+P         Command palette\n\n" + PANE_HELP

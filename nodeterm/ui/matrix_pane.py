@@ -1,0 +1,28 @@
+"""The matrix pane: the reduced equations as A x = b with labelled rows and columns."""
+
+from __future__ import annotations
+
+from textual.containers import ScrollableContainer
+from textual.widgets import Static
+
+from ..present.text import matrix_lines
+
+INTRO = ("A x = b after the substitutions so far: one row per equation left to solve, "
+         "one column per unknown (scroll sideways with the arrow keys when wide).")
+
+
+class MatrixPane(ScrollableContainer):
+    """Shows the labelled matrix, or why it is not there yet."""
+
+    DEFAULT_CSS = """
+    MatrixPane > Static { width: auto; }
+    """
+
+    def compose(self):
+        yield Static("(no circuit loaded)", id="matrix-text", markup=False)
+
+    def show_matrix(self, matrix) -> None:
+        self.query_one("#matrix-text", Static).update("\n".join([INTRO, ""] + matrix_lines(matrix)))
+
+    def show_note(self, text: str) -> None:
+        self.query_one("#matrix-text", Static).update(text)

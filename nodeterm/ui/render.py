@@ -1,0 +1,50 @@
+"""Equations and values as the workbench shows them.
+
+One-line form by default (the presenters' SymPy string form); the 2-D form is
+SymPy's own pretty printer, used only when every line fits the width given,
+otherwise the one-line form is kept.
+"""
+
+from __future__ import annotations
+
+import sympy
+
+from ..present.format import equation_text, expr_text
+
+MARK = "▶"       # marks the selected item (a textual marker, legible without colour)
+TIED = "*"       # marks items tied to the selection
+
+
+def one_line(lhs, rhs) -> str:
+    return f"{expr_text(lhs)} = {expr_text(rhs)}"
+
+
+def pretty(lhs, rhs, width: int) -> str | None:
+    """The 2-D form of ``lhs = rhs`` if it fits in ``width`` columns, else None."""
+    try:
+        text = sympy.pretty(sympy.Eq(lhs, rhs, evaluate=False), use_unicode=True, wrap_line=False)
+    except Exception:  # noqa: BLE001 - the printer is optional decoration; fall back to one line
+        return None
+    if max((len(ln) for ln in text.splitlines()), default=0) > width:
+        return None
+    return text
+
+
+def equation(eq, two_d: bool = False, width: int = 70) -> str:
+    """An equation in the chosen form."""
+    if two_d:
+        text = pretty(eq.lhs, eq.rhs, width)
+        if text is not None:
+            return text
+    return equation_text(eq)
+
+
+def expression(expr, two_d: bool = False, width: int = 70) -> str:
+    if two_d:
+        try:
+            text = sympy.pretty(expr, use_unicode=True, wrap_line=False)
+            if max(len(ln) for ln in text.splitlines()) <= width:
+                return text
+        except Exception:  # noqa: BLE001
+            pass
+    return expr_text(expr)

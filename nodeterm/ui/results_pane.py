@@ -1,0 +1,74 @@
+"""The results pane: node voltages, every part current, op-amp output and source currents, [find].
+
+Exact (symbolic) by default; where a result is a number its engineering
+value with an SI prefix follows (``present.format.value_text``).
+"""
+
+from __future__ import annotations
+
+from textual.containers import ScrollableContainer
+from textual.widgets import Static
+
+from ..present.format import value_text
+from . import render
+from .describe import part_group, part_nodes
+
+HEADINGS = {
+    "part": "Part currents (from its first node to its second)",
+    "opamp": "Op-amp output currents (out of the output pin)",
+    "source": "Source currents (from its first node to its second, through the source)",
+}
+
+
+def _value(expr, unit: str, two_d: bool, width: int) -> str:
+    if two_d:
+        text = render.expression(expr, True, width)
+        if "\n" in text:
+            return "\n" + "\n".join("      " + ln for ln in text.splitlines())
+    return value_text(expr, unit)
+
+
+def result_lines(system, solution, two_d: bool = False, width: int = 70) -> list[str]:
+    c = system.circuit
+    out = []
+    if system.values:
+        out.append("With " + ", ".join(f"{k} = {v}" for k, v in system.values.items()))
+    else:
+        out.append("Symbolic: no values substituted yet (k substitutes every value the file gives)")
+    out += ["", "Node voltages"]
+    for n, v in solution.node_voltages.items():
+        tag = "  (reference)" if n == c.reference else ""
+        out.append(f"  V_{n} = {_value(v, 'V', two_d, width)}{tag}")
+    for group in ("opamp", "source", "part"):
+        parts = [p for p in c.parts if part_group(p) == group]
+        if not parts:
+            continue
+        out += ["", HEADINGS[group]]
+        for p in parts:
+            where = f"   [{p.kind} {part_nodes(p)}]" if group != "opamp" else f"   [into node {p.out}]"
+            out.append(f"  I_{p.id} = {_value(solution.currents[p.id], 'A', two_d, width)}{where}")
+    if solution.find:
+        out += ["", "Asked quantities [find]"]
+        for name, v in solution.find.items():
+            out.append(f"  {name} = {_value(v, '', two_d, width)}   ({c.find[name].text})")
+    if solution.is_reactive:
+        out += ["", "Results depend on s (Laplace variable): they are transfer functions / impedances."]
+    return out
+
+
+class ResultsPane(ScrollableContainer):
+    """Shows the solution, or a note (busy, cancelled, singular)."""
+
+    DEFAULT_CSS = """
+    ResultsPane > Static { width: auto; }
+    """
+
+    def compose(self):
+        yield Static("(no circuit loaded)", id="results-text", markup=False)
+
+    def show_solution(self, system, solution, two_d: bool = False) -> None:
+        width = max(30, self.size.width - 10)
+        self.query_one("#results-text", Static).update("\n".join(result_lines(system, solution, two_d, width)))
+
+    def show_note(self, text: str) -> None:
+        self.query_one("#results-text", Static).update(text)

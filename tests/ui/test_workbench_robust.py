@@ -1,0 +1,78 @@
+"""The workbench never dies: failing actions are reported and logged, long solves can be cancelled."""
+
+from __future__ import annotations
+
+import threading
+
+from nodeterm.engine.system import System
+from nodeterm.ui.app import Workbench
+from nodeterm.ui.steps_pane import StepsPane
+from wb_helpers import settle, text_of
+
+SIZE = (80, 24)
+
+
+async def test_failing_action_is_reported_logged_and_state_kept(kiln, cache_home, monkeypatch):
+    app = Workbench(str(kiln), poll=False)
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(pilot, app)
+        before = app.system
+
+        def broken(self, delta):
+            raise RuntimeError("simulated fault")
+        monkeypatch.setattr(StepsPane, "go", broken)
+        await pilot.press("n")
+        await pilot.pause()
+        assert app.is_running
+        assert "internal error (RuntimeError: simulated fault)" in app.last_error
+        assert app.system is before
+        log = (cache_home / "nodeterm" / "workbench.log").read_text()
+        assert "simulated fault" in log and "Traceback" in log
+        monkeypatch.undo()
+        await pilot.press("n")     # the user can go on
+        assert "Step 2 of 5" in text_of(app, "#step-head")
+
+
+async def test_long_solve_shows_busy_and_can_be_cancelled(kiln, monkeypatch):
+    release = threading.Event()
+    real = System.solve
+
+    def slow(self):
+        release.wait(10)
+        return real(self)
+    monkeypatch.setattr(System, "solve", slow)
+    app = Workbench(str(kiln), poll=False)
+    try:
+        async with app.run_test(size=SIZE) as pilot:
+            await pilot.pause(0.6)
+            assert "BUSY solving" in text_of(app, "#status")
+            await pilot.press("n")          # the interface still answers while solving
+            assert "Step 2 of 5" in text_of(app, "#step-head")
+            await pilot.press("c")
+            assert "BUSY" not in text_of(app, "#status")
+            assert "cancelled" in text_of(app, "#results-text")
+            release.set()
+            await pilot.pause(0.3)
+            assert app.solution is None      # the late result of a cancelled solve is dropped
+            await pilot.press("s")           # solve again
+            await settle(pilot, app)
+            assert app.solution is not None
+    finally:
+        release.set()
+
+
+async def test_singular_circuit_reports_without_dying(tmp_path):
+    path = tmp_path / "open_loop.toml"
+    # an op-amp whose output feeds nothing back: the ideal rules leave V_out undetermined
+    path.write_text('reference = "gnd"\n[parameters]\nVin = ""\nR1 = "1k"\n[parts]\n'
+                    'Vs = { kind = "vsource", nodes = ["in", "gnd"], value = "Vin" }\n'
+                    'R1 = { kind = "resistor", nodes = ["in", "x"], value = "R1" }\n'
+                    'R2 = { kind = "resistor", nodes = ["x", "gnd"], value = "R1" }\n'
+                    'RL = { kind = "resistor", nodes = ["out", "gnd"], value = "R1" }\n'
+                    'U1 = { kind = "opamp", plus = "x", minus = "gnd", out = "out" }\n')
+    app = Workbench(str(path), poll=False)
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(pilot, app)
+        assert app.is_running
+        if app.solution is None:
+            assert "no results" in text_of(app, "#results-text")
