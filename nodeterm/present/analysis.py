@@ -323,7 +323,9 @@ def histogram_plot(mc, bins: int = 20, width: int = 80, height: int = 16) -> str
         fig, version = _figure()
         if version == 6:
             fig.plot_size(width, height)
-            fig.bar([float(c) for c in centers], [int(c) for c in counts])
+            bars = fig.bar([float(c) for c in centers], [int(c) for c in counts])
+            if bars is not None:
+                fig.draw(bars)
             fig.title(f"{mc.quantity}: {mc.samples.size} samples")
             return fig.build().string(colorless=True)
         fig.plotsize(width, height)

@@ -39,7 +39,24 @@ def solution_dict(system, solution=None, numeric: bool = False) -> dict:
         out["node_voltages"] = {n: fmt(v) for n, v in solution.node_voltages.items()}
         out["currents"] = {n: fmt(v) for n, v in solution.currents.items()}
         out["find"] = {n: fmt(v) for n, v in solution.find.items()}
+        out.update(analysis_dict(system, solution))
     return out
+
+
+def analysis_dict(system, solution) -> dict:
+    """The additive analysis keys: transfer functions, op-amp limits, cautions, the linear-model note."""
+    from ..engine.analysis.cautions import LINEAR_NOTE, merge, node_cautions, source_cautions
+    from ..engine.analysis.limits import check_limits, limit_warnings, limited_opamps
+    from ..engine.analysis.transfer import transfer_functions
+    from .analysis import limits_dict, transfer_dict
+    tfs = transfer_functions(solution, system.circuit)
+    checks = check_limits(system, solution) if limited_opamps(system.circuit) else []
+    warnings = merge(system.warnings, source_cautions(system.circuit, system.values),
+                     node_cautions(solution.node_voltages), limit_warnings(checks))
+    return {"transfer": {n: transfer_dict(tf) for n, tf in tfs.items()},
+            "limits": limits_dict(checks),
+            "warnings": [w.as_dict() for w in warnings],
+            "note": LINEAR_NOTE}
 
 
 def _num(e) -> str:

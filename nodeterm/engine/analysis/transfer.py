@@ -22,6 +22,8 @@ import sympy
 from ..symbols import s
 
 SQRT2_DB = 20 * math.log10(math.sqrt(2))  # 3.0103 dB
+MAX_TERMS_FOR_DETAIL = 200
+"""Symbolic N and D with more terms than this get no exact roots or factored sections."""
 
 
 @dataclass(frozen=True)
@@ -219,13 +221,18 @@ def transfer_function(expr: sympy.Expr, name: str = "H") -> TransferFunction:
     if lead.is_number and lead < 0:
         num, den = -num, -den
     num_c, den_c = _coeffs(num), _coeffs(den)
+    # Factoring and exact roots of very large symbolic polynomials can take minutes; keep them to sizes
+    # a person reads (numeric coefficients are always cheap).
+    small = len(sympy.Add.make_args(num)) + len(sympy.Add.make_args(den)) <= MAX_TERMS_FOR_DETAIL
+    numeric = not ((num.free_symbols | den.free_symbols) - {s})
+    detail = small or numeric
     return TransferFunction(
         name=name, expr=num / den,
         num=sympy.collect(num, s), den=sympy.collect(den, s),
         num_coeffs=num_c, den_coeffs=den_c,
-        poles=_roots(den), zeros=_roots(num),
+        poles=_roots(den) if detail else None, zeros=_roots(num) if detail else None,
         dc_gain=_limit_ratio(num_c, den_c, True), hf_gain=_limit_ratio(num_c, den_c, False),
-        sections=tuple(_sections(den, "pole") + _sections(num, "zero")))
+        sections=tuple(_sections(den, "pole") + _sections(num, "zero")) if detail else ())
 
 
 def transfer_functions(solution, circuit) -> dict[str, TransferFunction]:
