@@ -121,6 +121,11 @@ def _t(expr) -> str:
     return sympy.sstr(expr, order="none")
 
 
+def _r(expr) -> str:
+    """A result in SymPy's usual order (descending powers of s), as the reports print results."""
+    return sympy.sstr(expr)
+
+
 def _zero(expr) -> bool:
     return sympy.cancel(sympy.together(expr)) == 0
 
@@ -387,8 +392,9 @@ class Auditor:
                 for x, v in R.items():
                     if x in total:
                         k = sympy.cancel(v / total[x])
-                        if k not in ks:
-                            ks.append(k)
+                        for kk in (k, -k):  # a sign error on one of two terms reads either way
+                            if kk not in ks:
+                                ks.append(kk)
                 for k in ks:
                     mu, left = _attribute(R, forms, k)
                     score = sum(1 for m in mu if m != 1) + len(left)
@@ -480,19 +486,19 @@ class Auditor:
         claimed = self._prepare(expr).xreplace(self.sol)
         solved = self.solution.find[name]
         holds, method = self._is_zero(claimed - solved)
-        details = {"claim": text, "claimed": _t(claimed), "solved": _t(solved),
+        details = {"claim": text, "claimed": _r(claimed), "solved": _r(solved),
                    "method": "symbolic" if method == "symbolic" else
                    f"numeric check at {_NUMERIC_POINTS} random points (symbolic simplification inconclusive)"}
         if holds:
             how = "" if method == "symbolic" else f" (numeric check at {_NUMERIC_POINTS} random points; " \
                 "symbolic simplification was inconclusive)"
-            return Verdict(name, HOLDS, "result", f"holds: equals the solved {name} = {_t(solved)}{how}",
+            return Verdict(name, HOLDS, "result", f"holds: equals the solved {name} = {_r(solved)}{how}",
                            details=details, **loc)
         ratio = sympy.cancel(claimed / solved) if solved != 0 else None
         diff = sympy.cancel(claimed - solved)
         if ratio is not None:
-            details["ratio"] = _t(ratio)
-        details["difference"] = _t(diff)
+            details["ratio"] = _r(ratio)
+        details["difference"] = _r(diff)
         cause = _result_cause(claimed, solved, ratio, diff)
         if cause:
             details["cause"] = cause
@@ -500,13 +506,13 @@ class Auditor:
         if example:
             example = {**example, "claimed": example.pop("lhs"), "solved": example.pop("rhs")}
             details["example"] = example
-        msg = f"fails: claimed {_t(claimed)}, solved {_t(solved)}"
+        msg = f"fails: claimed {_r(claimed)}, solved {_r(solved)}"
         if cause:
             msg += f"; likely cause: {cause}"
         elif ratio is not None and ratio.is_number:
-            msg += f"; ratio {_t(ratio)}"
+            msg += f"; ratio {_r(ratio)}"
         else:
-            msg += f"; difference {_t(diff)}"
+            msg += f"; difference {_r(diff)}"
         return Verdict(name, FAILS, "result", msg, details=details, **loc)
 
 

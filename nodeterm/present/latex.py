@@ -46,7 +46,9 @@ def _align(rows: list[tuple[str, str, str]]) -> list[str]:
 def render_latex(system, solution, verdicts=None, note: str = "") -> str:
     """The whole report as a LaTeX document."""
     c = system.circuit
+    cols = max(10, len(system.reduced_unknowns) + 2)  # amsmath matrices allow 10 columns by default
     out = [r"\documentclass[10pt]{article}", r"\usepackage{amsmath}", r"\allowdisplaybreaks",
+           rf"\setcounter{{MaxMatrixCols}}{{{cols}}}",
            rf"\title{{{escape(c.title or 'Circuit')}}}", r"\date{}", r"\begin{document}", r"\maketitle", ""]
     if note:
         out += [rf"\noindent\textbf{{Note.}} {escape(note)}", ""]
