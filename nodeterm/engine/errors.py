@@ -13,6 +13,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+MAX_MESSAGE = 300  # characters of ``message`` shown by ``str(err)``; the middle of a longer one is elided
+
 
 class InputError(Exception):
     """A problem in the user's input, explained in one line.
@@ -60,7 +62,11 @@ class InputError(Exception):
         return ":".join(parts)
 
     def __str__(self) -> str:
-        text = f"{self.location}: error: {self.message}"
+        message = self.message
+        if len(message) > MAX_MESSAGE:  # a huge name or expression echoed back stays one readable line
+            keep = MAX_MESSAGE // 2
+            message = f"{message[:keep]} ... {message[-keep:]}"
+        text = f"{self.location}: error: {message}"
         if self.hint:
             text += f"; {self.hint}"
         return text
