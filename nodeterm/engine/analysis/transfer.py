@@ -324,11 +324,18 @@ def bandwidth_3db(tf: TransferFunction) -> Bandwidth | None:
     mag = 20 * np.log10(np.maximum(np.abs(tf.evaluate(freqs)), 1e-300))
     dc = tf.dc_gain
     passes_dc = dc.is_number and dc.is_finite and dc != 0
-    ref = 20 * math.log10(abs(complex(dc))) if passes_dc else float(np.max(mag))
-    target = ref - SQRT2_DB
     peak = 0 if passes_dc else int(np.argmax(mag))
     if not passes_dc and peak in (0, len(freqs) - 1):
         return None  # no interior peak (an integrator or a high-pass): no band to speak of
+    if passes_dc:
+        ref = 20 * math.log10(abs(complex(dc)))
+    else:  # refine the sampled peak between its neighbours
+        from scipy.optimize import minimize_scalar
+        a, b = math.log10(freqs[peak - 1]), math.log10(freqs[peak + 1])
+        best = minimize_scalar(lambda lf: -abs(complex(tf.evaluate([10 ** lf])[0])), bounds=(a, b),
+                               method="bounded", options={"xatol": 1e-12})
+        ref = max(float(mag[peak]), 20 * math.log10(-best.fun))
+    target = ref - SQRT2_DB
 
     def g(logf: float) -> float:
         return 20 * math.log10(max(abs(complex(tf.evaluate([10 ** logf])[0])), 1e-300)) - target
