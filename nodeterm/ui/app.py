@@ -15,6 +15,7 @@ from functools import partial
 from textual import on, work
 from textual.app import App, SystemCommand
 from textual.binding import Binding
+from textual.css.query import NoMatches
 from textual.reactive import var
 from textual.widgets import Footer, Input, Static, TabbedContent, TabPane
 from textual.worker import get_current_worker
@@ -22,8 +23,9 @@ from textual.worker import get_current_worker
 from ..engine import InputError, load_circuit
 from ..present.text import matrix_lines, report, steps_lines
 from .circuit_pane import CircuitPane
-from .dialogs import ConfirmScreen, HelpScreen, PathScreen
-from .files import write_atomic
+from .claims_pane import ClaimsPane
+from ..present.export import EXTENSIONS, FORMATS, render, write_atomic
+from .dialogs import ConfirmScreen, ExportScreen, HelpScreen, PathScreen
 from .keys import KEYS, help_text
 from .matrix_pane import MatrixPane
 from .results_pane import ResultsPane
@@ -32,7 +34,7 @@ from .session import Session
 from .steps_pane import StepsPane
 from .values_pane import ValuesPane
 
-PANES = ("circuit", "steps", "values", "matrix", "results")
+PANES = ("circuit", "steps", "values", "matrix", "results", "claims")
 POLL_SECONDS = 1.0
 
 
@@ -56,6 +58,8 @@ class Workbench(App):
         self.busy_since: float | None = None
         self.busy_what = ""
         self.last_error = ""        # last message shown (tests and the status line read it)
+        self.verdicts: list = []    # audit verdicts of the claims, for the exports
+        self.typed_claims: dict[str, str] = {}  # claims typed in the claims pane, name -> text
 
     # --- layout -----------------------------------------------------------
     def compose(self):
@@ -72,6 +76,8 @@ class Workbench(App):
                 yield MatrixPane(id="matrix-pane")
             with TabPane("5 Results", id="results"):
                 yield ResultsPane(id="results-pane")
+            with TabPane("6 Claims", id="claims"):
+                yield ClaimsPane(id="claims-pane")
         yield Footer()
 
     def on_mount(self) -> None:
@@ -168,9 +174,14 @@ class Workbench(App):
         self._update_status()
 
     def _update_status(self) -> None:
-        if not self.is_mounted:
-            return
-        parts = []
+        try:
+            self._write_status()
+        except NoMatches:  # during start-up or shut-down
+            pass
+
+    def _write_status(self) -> None:
+        pane = self.query_one(TabbedContent).active
+        parts = [f"[{pane.capitalize()}]"] if pane else []
         if self.session.path:
             parts.append(os.path.basename(self.session.path))
         steps = self.query_one(StepsPane)
@@ -184,6 +195,7 @@ class Workbench(App):
             parts.append(f"BUSY {self.busy_what} {time.monotonic() - self.busy_since:.0f}s (c cancels)")
         self.query_one("#status", Static).update(" | ".join(parts))
 
+    @guarded
     def _tick(self) -> None:
         self._update_status()
 
@@ -228,7 +240,75 @@ class Workbench(App):
         else:
             self.solution = solution
             self.query_one(ResultsPane).show_solution(system, solution, self.two_d)
+            self.start_audit()
         self._update_status()
+
+    # --- audit of claims in a worker -----------------------------------------
+    def start_audit(self) -> None:
+        if self.system is None or self.solution is None:
+            return
+        if not self.system.circuit.hand and not self.typed_claims:
+            self.verdicts = []
+            self.query_one(ClaimsPane).show_verdicts([])
+            return
+        self.query_one(ClaimsPane).show_verdicts(["checking the claims..."])
+        self._audit_worker(self.system, self.solution, dict(self.typed_claims))
+
+    @work(thread=True, exclusive=True, group="audit")
+    def _audit_worker(self, system, solution, typed: dict) -> None:
+        from ..engine.audit import audit_claims
+        worker = get_current_worker()
+        try:
+            verdicts = audit_claims(system, None, solution=solution)
+            if typed:
+                verdicts += audit_claims(system, typed, solution=solution)
+            error = None
+        except Exception as exc:  # noqa: BLE001 - reported on screen by _audited
+            verdicts, error = [], exc
+        if not worker.is_cancelled:
+            self.call_from_thread(self._audited, system, verdicts, error)
+
+    @guarded
+    def _audited(self, system, verdicts, error) -> None:
+        if system is not self.system:
+            return
+        from ..engine.audit import summary
+        from ..present.text import verdict_lines
+        pane = self.query_one(ClaimsPane)
+        if error is not None:
+            pane.show_verdicts([f"claims not checked: {describe(error)}"])
+            self.report_error(error, "check the claims")
+            return
+        self.verdicts = verdicts
+        lines = [summary(verdicts), ""] + verdict_lines(verdicts)
+        pane.show_verdicts(lines)
+
+    @on(ClaimsPane.Check)
+    @guarded
+    def _check_claim(self, event: ClaimsPane.Check) -> None:
+        self.check_claim(event.text)
+
+    def check_claim(self, text: str) -> bool:
+        """Add a typed claim: ``NAME = value`` for a [find] name is a claimed result, else an equation."""
+        pane = self.query_one(ClaimsPane)
+        if self.system is None:
+            return False
+        head, sep, tail = text.partition("=")
+        if sep and head.strip() in self.system.circuit.find and "=" not in tail:
+            name, claim = head.strip(), tail.strip()
+        else:
+            if not sep:
+                pane.show_error("! a claim needs '=': an equation, or NAME = value for a [find] name "
+                                f"({', '.join(self.system.circuit.find) or 'this circuit has none'})")
+                return False
+            name, claim = f"typed{len(self.typed_claims) + 1}", text
+        if self.solution is None:
+            pane.show_error("! the solve has not finished; wait for it (s solves again)")
+            return False
+        self.typed_claims[name] = claim
+        pane.accepted()
+        self.start_audit()
+        return True
 
     # --- actions (each calls a public method; all guarded) ------------------
     @guarded
@@ -239,9 +319,13 @@ class Workbench(App):
     def action_pane(self, name: str) -> None:
         self.show_pane(name)
 
+    @on(TabbedContent.TabActivated)
+    def _pane_changed(self) -> None:
+        self._update_status()
+
     def show_pane(self, name: str) -> None:
         self.query_one(TabbedContent).active = name
-        target = {"steps": "#equation-list", "values": "#param-list"}.get(name)
+        target = {"steps": "#equation-list", "values": "#param-list", "claims": "#claim-input"}.get(name)
         if target:
             self.query_one(target).focus()
         else:
@@ -340,7 +424,10 @@ class Workbench(App):
     @guarded
     def action_leave(self) -> None:
         if isinstance(self.focused, Input):
-            self.query_one("#param-list").focus()
+            if self.query_one(TabbedContent).active == "claims":
+                self.query_one("#claims-scroll").focus()
+            else:
+                self.query_one("#param-list").focus()
         elif self.busy_since is not None:
             self.cancel_solve()
 
@@ -355,43 +442,41 @@ class Workbench(App):
 
     @guarded
     def action_export(self) -> None:
-        default = os.path.join(os.getcwd(), self.export_name())
-        self.push_screen(PathScreen("Export the equation set as plain text to:", default),
-                         callback=self._export_to)
-
-    def export_name(self) -> str:
         stem = os.path.splitext(os.path.basename(self.session.path or "circuit"))[0]
-        return f"{stem}-equations.txt"
+        self.push_screen(ExportScreen(FORMATS, EXTENSIONS, stem, os.getcwd()), callback=self._export_to)
 
-    def export_text(self) -> str:
-        """The plain-text equation set of what is on screen (with results when solved)."""
+    def export_text(self, fmt: str = "text") -> str:
+        """The equation set of what is on screen in format ``fmt`` (with results when solved)."""
         system = self.system
         if self.solution is not None:
-            return report(system, self.solution)
+            return render(system, self.solution, self.verdicts, fmt)
+        if fmt not in ("text", "ascii"):
+            raise InputError(f"the {fmt} export needs the results, and the solve has not finished",
+                             hint="wait for it (or press s to solve again), then export")
         lines = steps_lines(system) + ["Matrix form A x = b"]
         lines += ["  " + ln for ln in matrix_lines(self.matrix_form or system.matrix())]
         lines += ["", "(results not included: the solve had not finished)"]
         return "\n".join(lines) + "\n"
 
     @guarded
-    def _export_to(self, path: str | None) -> None:
-        if not path:
+    def _export_to(self, choice: tuple[str, str] | None) -> None:
+        if not choice:
             return
-        if os.path.exists(path):
+        path, fmt = choice
+        if os.path.lexists(path):
             self.push_screen(ConfirmScreen(f"{path} exists. Replace it?", "Replace", "Keep it"),
-                             callback=lambda yes: self.export(path) if yes else None)
+                             callback=lambda yes: self.export(path, fmt, force=True) if yes else None)
         else:
-            self.export(path)
+            self.export(path, fmt)
 
-    def export(self, path: str) -> bool:
+    def export(self, path: str, fmt: str = "text", force: bool = False) -> bool:
         """Write the equation set to ``path`` atomically; a failure is reported and leaves no file."""
         try:
-            write_atomic(path, self.export_text())
-        except OSError as err:
-            self.report_error(InputError(f"cannot write {path}: {err.strerror or err}",
-                                         hint="choose another folder or name"), "export")
+            write_atomic(path, self.export_text(fmt), force=force)
+        except InputError as err:
+            self.report_error(err, "export")
             return False
-        self.notify(f"wrote {path}", timeout=5)
+        self.notify(f"wrote {path} ({fmt})", timeout=5)
         return True
 
     def pending_input(self) -> list[str]:
@@ -400,6 +485,9 @@ class Workbench(App):
         value = self.query_one(ValuesPane).pending
         if value:
             pending.append(f"the value {value!r} typed for {self.query_one(ValuesPane).selected}")
+        claim = self.query_one(ClaimsPane).pending
+        if claim:
+            pending.append(f"the claim {claim!r} not yet checked")
         return pending
 
     @guarded

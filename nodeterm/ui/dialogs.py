@@ -6,7 +6,7 @@ from textual import on
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.screen import ModalScreen
-from textual.widgets import Button, Input, Label, Static
+from textual.widgets import Button, Input, Label, Select, Static
 
 
 class HelpScreen(ModalScreen[None]):
@@ -80,6 +80,49 @@ class PathScreen(ModalScreen[str | None]):
             self.query_one("#path-error", Static).update(f"! {problem}")
             return
         self.dismiss(path)
+
+    def action_cancel(self) -> None:
+        self.dismiss(None)
+
+
+class ExportScreen(ModalScreen[tuple[str, str] | None]):
+    """Ask for a format and a file path; the extension follows the format until the path is edited."""
+
+    BINDINGS = [Binding("escape", "cancel", "Cancel")]
+
+    def __init__(self, formats: tuple[str, ...], extensions: dict[str, str], stem: str, folder: str) -> None:
+        super().__init__()
+        self.formats, self.extensions, self.stem, self.folder = formats, extensions, stem, folder
+
+    def _default(self, fmt: str) -> str:
+        import os
+        return os.path.join(self.folder, f"{self.stem}-equations{self.extensions.get(fmt, '.txt')}")
+
+    def compose(self):
+        with Vertical(classes="dialog"):
+            yield Label("Export the equation set (steps, matrix, results, claims)", classes="dialog-question")
+            yield Select([(f, f) for f in self.formats], value=self.formats[0], allow_blank=False,
+                         id="export-format")
+            yield Input(value=self._default(self.formats[0]), id="path-input")
+            yield Static("Up/down on the format, Tab to the path, Enter writes, Esc cancels", markup=False)
+            yield Static("", id="path-error", markup=False)
+
+    def on_mount(self) -> None:
+        self.query_one("#path-input", Input).focus()
+
+    @on(Select.Changed, "#export-format")
+    def _format(self, event: Select.Changed) -> None:
+        field = self.query_one("#path-input", Input)
+        if field.value in {self._default(f) for f in self.formats}:
+            field.value = self._default(str(event.value))
+
+    @on(Input.Submitted, "#path-input")
+    def _submitted(self, event: Input.Submitted) -> None:
+        path = event.value.strip()
+        if not path:
+            self.query_one("#path-error", Static).update("! type a file path")
+            return
+        self.dismiss((path, str(self.query_one("#export-format", Select).value)))
 
     def action_cancel(self) -> None:
         self.dismiss(None)

@@ -26,6 +26,7 @@ KEYS: tuple[Key, ...] = (
     Key("3", "pane('values')", "Show the parameter values to substitute"),
     Key("4", "pane('matrix')", "Show the matrix A x = b"),
     Key("5", "pane('results')", "Show the results: voltages, currents, [find]"),
+    Key("6", "pane('claims')", "Show the claims: type your own, read the verdicts"),
     Key("n", "next_step", "Next step of the procedure", "next"),
     Key("b", "previous_step", "Back one step of the procedure", "back"),
     Key("v", "type_value", "Type a value for a parameter", "value"),
@@ -42,16 +43,19 @@ KEYS: tuple[Key, ...] = (
 )
 
 PANE_HELP = """\
-Panes (keys 1-5, or Tab/Shift+Tab between the widgets):
+Panes (keys 1-6; Tab/Shift+Tab moves between the widgets of a pane):
   1 Circuit  parts with nodes and values, nodes (reference, op-amp outputs), parameters
   2 Steps    the procedure step by step: n next, b back. Up/down picks an equation:
-             its parts get * in the parts list. Tab to the parts list: the picked
-             part's terms get * in the equations. The picked item carries ▶.
+             its parts get * in the parts list. Tab (or Left) to the parts list:
+             the picked part's terms get * in the equations; Tab/Right goes back.
+             The picked item carries ▶.
   3 Values   pick a parameter, Tab to the box, type a value (e.g. 4.7k, 100nF,
              Gain*Rin), Enter applies; a bad value is explained under the box.
   4 Matrix   A x = b with one row per equation and one column per unknown
   5 Results  node voltages, part currents, op-amp output currents, source currents,
              [find] quantities; exact, with engineering values when numeric
+  6 Claims   type a claim (an equation, or NAME = value for a [find] name), Enter
+             checks it against the node equations; the file's [hand] claims too
 
 The file is reloaded when it changes on disk; if it no longer loads, its error is
 shown on the second line and the last good version stays on screen.

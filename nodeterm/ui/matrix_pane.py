@@ -7,8 +7,8 @@ from textual.widgets import Static
 
 from ..present.text import matrix_lines
 
-INTRO = ("A x = b after the substitutions so far: one row per equation left to solve, "
-         "one column per unknown (scroll sideways with the arrow keys when wide).")
+INTRO = ("A x = b after the substitutions so far: one row per equation left to\n"
+         "solve, one column per unknown (arrow keys scroll when it is wide).")
 
 
 class MatrixPane(ScrollableContainer):

@@ -9,6 +9,7 @@ The highlighted item itself carries ``▶``, so nothing depends on colour.
 from __future__ import annotations
 
 from textual import on
+from textual.binding import Binding
 from textual.containers import Horizontal, Vertical
 from textual.content import Content
 from textual.message import Message
@@ -25,6 +26,12 @@ TERMS_KINDS = ("kcl", "supernode_kcl")
 
 class StepsPane(Vertical):
     """The recorded procedure, one step at a time."""
+
+    BINDINGS = [
+        Binding("tab,shift+tab", "swap_lists", "parts/equations", show=False),
+        Binding("left", "focus_list('parts-list')", "parts", show=False),
+        Binding("right", "focus_list('equation-list')", "equations", show=False),
+    ]
 
     index: reactive[int] = reactive(0, always_update=True)
 
@@ -46,8 +53,12 @@ class StepsPane(Vertical):
         yield Static("", id="step-head", markup=False)
         yield Static("", id="step-text", markup=False)
         with Horizontal(id="step-body"):
-            yield OptionList(id="parts-list")
-            yield OptionList(id="equation-list")
+            parts = OptionList(id="parts-list")
+            parts.border_title = "Parts"
+            yield parts
+            eqs = OptionList(id="equation-list")
+            eqs.border_title = "Equations (up/down)"
+            yield eqs
 
     # --- public API (the app's actions call these) --------------------------
     def show(self, system, keep_step: bool = True) -> None:
@@ -85,6 +96,13 @@ class StepsPane(Vertical):
     def set_two_d(self, on_: bool) -> None:
         self.two_d = on_
         self._fill_equations()
+
+    def action_swap_lists(self) -> None:
+        parts = self.query_one("#parts-list", OptionList)
+        self.action_focus_list("equation-list" if parts.has_focus else "parts-list")
+
+    def action_focus_list(self, name: str) -> None:
+        self.query_one(f"#{name}", OptionList).focus()
 
     # --- rendering ----------------------------------------------------------
     def watch_index(self, index: int) -> None:
@@ -150,7 +168,8 @@ class StepsPane(Vertical):
         tied = eq is not None and pid in self._eq_parts(eq)
         mark = render.MARK if pid == self.selected_part else (render.TIED if tied else " ")
         part = self.system.circuit.part(pid)
-        return Content(f"{mark} {pid} {part.kind}\n    {part_nodes(part)}")
+        where = part_nodes(part).replace(" out=", "\n    out=")
+        return Content(f"{mark} {pid} {part.kind}\n    {where}")
 
     def _refresh_parts(self) -> None:
         parts = self.query_one("#parts-list", OptionList)

@@ -38,7 +38,7 @@ class ValuesPane(Vertical):
     def compose(self):
         yield Static(HELP, id="values-help", markup=False)
         params = OptionList(id="param-list")
-        params.border_title = "Parameters"
+        params.border_title = "Parameters (file value, value now)"
         yield params
         with Horizontal(id="value-row"):
             yield Label("value:", id="value-label")
@@ -65,11 +65,12 @@ class ValuesPane(Vertical):
         lst.clear_options()
         params = system.circuit.parameters
         width = max((len(n) for n in params), default=2)
+        wfile = max((len(p.text) for p in params.values() if p.value is not None), default=1)
         for name, prm in params.items():
-            written = prm.text if prm.value is not None else "(no value in file)"
+            written = prm.text if prm.value is not None else "-"
             now = system.values.get(name)
-            state = f"now = {expr_text(now)}" if now is not None else "symbolic"
-            lst.add_option(Option(Content(f"{name.ljust(width)}  file: {written}   {state}"), id=name))
+            state = f"now {expr_text(now)}" if now is not None else "now a symbol"
+            lst.add_option(Option(Content(f"{name.ljust(width)}  file: {written.ljust(wfile)}  {state}"), id=name))
         if not params:
             lst.add_option(Option("(this circuit has no parameters)", id="", disabled=True))
         names = list(params)

@@ -4,12 +4,14 @@ source: gain -Rf/Rin, input current Vin/Rin, which the op-amp output sinks when 
 
 from __future__ import annotations
 
+import json
 import os
 
 import sympy
 
 from nodeterm.ui.app import Workbench
-from nodeterm.ui.dialogs import ConfirmScreen, HelpScreen, PathScreen
+from nodeterm.present.export import EXTENSIONS, FORMATS
+from nodeterm.ui.dialogs import ConfirmScreen, ExportScreen, HelpScreen, PathScreen
 from nodeterm.ui.keys import KEYS
 from wb_helpers import prompts, settle, text_of
 
@@ -184,7 +186,7 @@ async def test_export_writes_file_and_asks_before_replacing(kiln, tmp_path, monk
     async with app.run_test(size=SIZE) as pilot:
         await settle(pilot, app)
         await pilot.press("e")
-        assert isinstance(app.screen, PathScreen)
+        assert isinstance(app.screen, ExportScreen)
         target = tmp_path / "kiln-equations.txt"
         assert app.screen.query_one("#path-input").value == str(target)
         await pilot.press("enter")
@@ -202,7 +204,21 @@ async def test_export_writes_file_and_asks_before_replacing(kiln, tmp_path, monk
         await pilot.press("y")
         await pilot.pause()
         assert "[KCL at inv]" in target.read_text()
-        assert [p.name for p in tmp_path.iterdir() if p.name.startswith(".nodeterm-")] == []
+        assert [p.name for p in tmp_path.iterdir() if p.name.endswith(".tmp")] == []
+
+
+async def test_export_every_format(kiln, tmp_path):
+    app = Workbench(str(kiln), poll=False)
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(pilot, app)
+        for fmt in FORMATS:
+            path = tmp_path / f"out-{fmt}{EXTENSIONS[fmt]}"
+            assert app.export(str(path), fmt), app.last_error
+            text = path.read_text(encoding="utf-8")
+            assert "KCL at inv" in text
+        data = json.loads((tmp_path / "out-json.json").read_text())
+        assert data["title"].startswith("Kiln")
+        (tmp_path / "out-ascii.txt").read_bytes().decode("ascii")   # strictly 7-bit
 
 
 async def test_export_failure_is_reported_and_leaves_nothing(kiln, tmp_path):
@@ -210,8 +226,35 @@ async def test_export_failure_is_reported_and_leaves_nothing(kiln, tmp_path):
     async with app.run_test(size=SIZE) as pilot:
         await settle(pilot, app)
         assert not app.export(str(tmp_path / "no-such-folder" / "x.txt"))
-        assert "cannot write" in app.last_error
+        assert "nothing was written" in app.last_error
         assert app.is_running
+        assert not (tmp_path / "no-such-folder").exists()
+
+
+async def test_claims_typed_and_from_file(kiln):
+    app = Workbench(str(kiln), poll=False)
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(pilot, app)
+        await pilot.pause(0.5)
+        await pilot.press("6")
+        text = text_of(app, "#claims-text")
+        assert "4 claims: 4 hold" in text     # the demo's [hand] derivation is right
+        # a sign error on R2's term (the classic slip): the audit must say it fails
+        await pilot.press(*"(V_inv - V_in)/Rin - (V_inv - V_out)/Rf = 0", "enter")
+        for _ in range(100):
+            await pilot.pause(0.05)
+            if "5 claims" in text_of(app, "#claims-text"):
+                break
+        text = text_of(app, "#claims-text")
+        assert "typed1 [FAILS]" in text and "R2" in text
+        await pilot.press(*"gain = -Rf/Rin", "enter")   # a result claim under a [find] name
+        for _ in range(100):
+            await pilot.pause(0.05)
+            if "6 claims" in text_of(app, "#claims-text"):
+                break
+        assert "6 claims: 5 hold, 1 fails" in text_of(app, "#claims-text")
+        await pilot.press(*"V_out", "enter")   # no '=': explained inline
+        assert text_of(app, "#claim-error").startswith("! a claim needs '='")
 
 
 async def test_help_lists_every_key_and_palette_has_every_action():
