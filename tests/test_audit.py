@@ -269,3 +269,15 @@ def test_check_does_not_import_textual(tmp_path):
             "assert 'textual' not in sys.modules, 'textual imported'; sys.exit(rc)")
     done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
     assert done.returncode == 0, done.stderr
+
+
+def test_claim_about_one_node_compares_the_value():
+    # Voltage divider at the + input: V_p = V2*R4/(R3 + R4) (common practice, no source); R3, R4 swapped here.
+    v = audit_claim(system_of("difference.toml"), "vp", "V_p = V2*R3/(R3 + R4)")
+    assert v.status == "fails" and "V_p" in v.message and "R3 and R4 are swapped" in v.message
+
+
+def test_matched_ratio_formula_on_unmatched_parts():
+    # V_out = (R2/R1)*(V2 - V1) holds only for R2/R1 = R4/R3 (Sedra & Smith, sec. 2.4, from memory).
+    v = audit_claim(system_of("difference.toml"), "vout", "(R2/R1)*(V2 - V1)")
+    assert v.status == "fails" and "R1*R4 = R2*R3" in v.details["cause"]

@@ -341,41 +341,79 @@ class Auditor:
             sol = ", ".join(f"{k} = {v}" for k, v in example.get("solution", {}).items())
             ex = "; e.g. " + (f"with {vals}" if vals else "") + (f" (so {sol})" if sol else "") + \
                 f": left side {example['lhs']}, right side {example['rhs']}"
+        value = self._implied_value(r)
+        if value is not None:
+            x, implied, actual, cause = value
+            details.update({"quantity": str(x), "claimed": _r(implied), "solved": _r(actual)})
+            if cause:
+                details["cause"] = cause
+            if cause or best is None or best[4] >= 2:
+                msg = f"fails: it gives {x} = {_r(implied)}, the solution has {x} = {_r(actual)}"
+                msg += f"; likely cause: {cause}" if cause else ""
+                if best is not None:
+                    self._closest_details(best, details)
+                return Verdict(name, FAILS, "equation", msg + ex, matches=(best[0].label,) if best else (),
+                               step=self.step_of.get(best[0].label) if best else None, details=details, **loc)
         if best is None:
             return Verdict(name, FAILS, "equation", "fails: not satisfied by the solution and not close to any "
                            "generated equation" + ex, details=details, **loc)
-        e, k, diffs, mode = best
+        e, diffs, step, used = self._closest_details(best, details)
+        where = f" (step {step})" if step else ""
+        if used:
+            where = f" (step {step}, with {', '.join(used)})" if step else f" (with {', '.join(used)})"
+        msg = f"fails: closest to {e.label}{where}: {diffs[0]}" + (f" (+{len(diffs) - 1} more)" if len(diffs) > 1 else "")
+        return Verdict(name, FAILS, "equation", msg + ex, matches=(e.label,), step=step, details=details, **loc)
+
+    def _implied_value(self, r):
+        """For a claim about one quantity (e.g. V_p = ...): (symbol, claimed value, solved value, cause)."""
+        qs = sorted(r.free_symbols & set(self.sol), key=str)
+        if len(qs) != 1:
+            return None
+        x = qs[0]
+        form = _linear(r, [x])
+        if not form or x not in form:
+            return None
+        implied = sympy.cancel(-form.get(_ONE, 0) / form[x])
+        actual = self.sol[x]
+        ratio = sympy.cancel(implied / actual) if actual != 0 else None
+        return x, implied, actual, _result_cause(implied, actual, ratio, sympy.cancel(implied - actual))
+
+    def _closest_details(self, best, details: dict):
+        e, k, diffs, mode, _ = best
         details["closest"] = e.label
         details["closest_equation"] = f"{_t(e.lhs)} = {_t(e.rhs)}"
         details["differences"] = diffs
         if k != 1:
             details["scale"] = (details.get("scale", "") + "; " if details.get("scale") else "") + \
                 f"compared with {e.label} multiplied by {_t(k)}"
-        if mode == "reduced":
-            details["substituted"] = "compared after substituting the known voltages and input equalities"
+        used = [f"{_t(x)} = {_t(v)}" for x, v in mode.items() if x in e.residual.free_symbols]
+        if used:
+            details["substituted"] = "compared after substituting " + ", ".join(used)
         step = self.step_of.get(e.label)
         if step:
             details["step_title"] = self.system.steps[step - 1].title
-        where = f" (step {step})" if step else ""
-        if mode == "reduced":
-            used = [f"{_t(x)} = {_t(v)}" for x, v in self.elim.items() if x in e.residual.free_symbols]
-            if used:
-                where = f" (step {step}, with {', '.join(used)})" if step else f" (with {', '.join(used)})"
-        msg = f"fails: closest to {e.label}{where}: {diffs[0]}" + (f" (+{len(diffs) - 1} more)" if len(diffs) > 1 else "")
-        return Verdict(name, FAILS, "equation", msg + ex, matches=(e.label,), step=step, details=details, **loc)
+        return e, diffs, step, used
 
     def _closest(self, r):
         candidates = []
-        modes = [("full", r, self.xs, self.equations)]
-        if self.elim:
-            red = sympy.expand(r.xreplace(self.elim)) if r.free_symbols & set(self.elim) else r
-            modes.append(("reduced", red, self.reduced_xs, [e.subs(self.elim) for e in self.equations]))
+        # Compare as written, then with the constraints the claim does not mention substituted
+        # (V_in = Vin, but V_m kept when the claim uses V_m), then fully reduced.
+        present = r.free_symbols
+        modes, seen = [], []
+        for subs in ({}, {x: v for x, v in self.elim.items() if x not in present}, dict(self.elim)):
+            if subs in seen:
+                continue
+            seen.append(subs)
+            rr = sympy.expand(r.xreplace(subs)) if present & set(subs) else r
+            xs = [x for x in self.xs if x not in subs]
+            eqs = [e.subs(subs) for e in self.equations] if subs else self.equations
+            modes.append((subs, rr, xs, eqs))
         for mode_rank, (mode, rr, xs, eqs) in enumerate(modes):
             R = _linear(rr, xs)
             if R is None or not R:
                 continue
             for idx, (orig, e) in enumerate(zip(self.equations, eqs)):
-                if mode == "reduced" and e.kind in HELPER_KINDS:
+                if mode and e.kind in HELPER_KINDS:
                     continue
                 terms = [(t.part, t.expr) for t in e.terms] if e.terms else []
                 if terms and not _zero(sum(t for _, t in terms) - e.residual):
@@ -405,8 +443,8 @@ class Auditor:
         if not candidates:
             return None
         candidates.sort(key=lambda c: c[0])
-        _, orig, e, k, terms, mu, left, mode, xs = candidates[0]
-        return orig, k, self._describe(e, terms, mu, left, k), mode
+        rank, orig, e, k, terms, mu, left, mode, xs = candidates[0]
+        return orig, k, self._describe(e, terms, mu, left, k), mode, rank[0]
 
     def _describe(self, e, terms, mu, left, k) -> list[str]:
         node = e.at
@@ -496,9 +534,9 @@ class Auditor:
                            details=details, **loc)
         ratio = sympy.cancel(claimed / solved) if solved != 0 else None
         diff = sympy.cancel(claimed - solved)
-        if ratio is not None:
+        if ratio is not None and (ratio.is_number or sympy.count_ops(ratio) <= sympy.count_ops(diff)):
             details["ratio"] = _r(ratio)
-        details["difference"] = _r(diff)
+        details["difference"] = _r(sympy.factor(diff))
         cause = _result_cause(claimed, solved, ratio, diff)
         if cause:
             details["cause"] = cause
@@ -512,7 +550,7 @@ class Auditor:
         elif ratio is not None and ratio.is_number:
             msg += f"; ratio {_r(ratio)}"
         else:
-            msg += f"; difference {_r(diff)}"
+            msg += f"; difference {details['difference']}"
         return Verdict(name, FAILS, "result", msg, details=details, **loc)
 
 
@@ -673,6 +711,11 @@ def _result_cause(claimed, solved, ratio, diff) -> str:
                 return f"{a} written where {b} belongs"
     if diff.is_number:
         return f"off by a constant {_t(diff)} (e.g. a missing '1 +')" if abs(diff) == 1 else ""
+    num, _ = sympy.fraction(sympy.factor(diff))
+    for f in sympy.Mul.make_args(num):
+        if isinstance(f, sympy.Add) and len(f.args) == 2 and f.free_symbols <= set(params):
+            a, b = f.args
+            return f"the two agree only when {_r(a)} = {_r(-b)} (a matched-ratio formula used for unmatched parts?)"
     return ""
 
 
