@@ -15,7 +15,7 @@ from pathlib import Path
 import sympy
 
 from .errors import InputError, Warning
-from .expr import MAX_LITERAL_DIGITS, ExpressionError, parse_expression
+from .expr import MAX_EXPONENT, MAX_LITERAL_DIGITS, MAX_NUMBER_BITS, ExpressionError, parse_expression, size_bound
 from .model import Circuit, FindItem, HandItem, Parameter
 from .parts import KINDS, Part
 from .symbols import I, V, param, s
@@ -205,7 +205,36 @@ class _Loader:
             text = raw if isinstance(raw, str) else str(raw)
             result[name] = Parameter(name, value, line, tolerance, text, distribution)
         self.check_cycles(result)
+        self.check_sizes(result)
         return result
+
+    def check_sizes(self, params: dict[str, Parameter]) -> None:
+        """Refuse values whose numbers or degree, with the parameters they use, would blow up."""
+        self.bounds: dict = {}
+
+        def bound(name: str):
+            sym = param(name)
+            if sym not in self.bounds:
+                value = params[name].value
+                deps = {str(x) for x in value.free_symbols} if value is not None else set()
+                for d in sorted(deps & set(params)):
+                    bound(d)
+                self.bounds[sym] = size_bound(value, self.bounds) if value is not None else (0, 0, 1, 0)
+                self.check_size(self.bounds[sym], f"parameter {name}", params[name].line)
+            return self.bounds[sym]
+
+        for name in params:
+            bound(name)
+
+    def check_size(self, b, what: str, line: int | None) -> None:
+        if max(b[0], b[1]) > MAX_NUMBER_BITS:
+            raise self.error(f"{what}: with the parameters it uses, its exact value would need numbers of "
+                             f"more than {MAX_NUMBER_BITS} bits",
+                             hint="check the powers in the chain of parameters", line=line)
+        if max(b[2], b[3]) > MAX_EXPONENT:
+            raise self.error(f"{what}: with the parameters it uses, its value has degree "
+                             f"{max(b[2], b[3])} in its symbols (limit {MAX_EXPONENT})",
+                             hint="check the powers in the chain of parameters", line=line)
 
     def tolerance(self, raw: object, name: str, line: int | None) -> sympy.Expr | None:
         if raw is None:
@@ -306,6 +335,10 @@ class _Loader:
             if isinstance(p.control, str) and p.control == p.id:
                 raise self.error(f"part {p.id} is controlled by its own current",
                                  hint="name another part in control", line=p.line)
+        for p in parts:
+            for what, expr in (("value", p.value), ("gain", p.gain)):
+                if expr is not None:
+                    self.check_size(size_bound(expr, getattr(self, "bounds", {})), f"part {p.id} {what}", p.line)
         self.check_values(parts, parameters)
         return parts
 
