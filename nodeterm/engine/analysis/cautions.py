@@ -63,10 +63,8 @@ def source_cautions(circuit, values: dict | None = None) -> list[Warning]:
         circuit: the circuit.
         values: parameter name -> value overriding the file (e.g. from ``--set``).
     """
-    known = {**circuit.known_values(), **(values or {})}
-    subs = {param(n): sympy.sympify(v) for n, v in known.items()}
-    for _ in range(len(subs)):  # values may name other parameters
-        subs = {k: v.xreplace(subs) for k, v in subs.items()}
+    from .realopamp import resolved_values
+    subs = {param(n): v for n, v in resolved_values(circuit, values).items()}
     out = []
     for p in circuit.parts:
         if p.kind != "vsource":

@@ -12,7 +12,7 @@ taken as positive (a resistance), over which every op-amp stays inside its limit
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 import sympy
@@ -99,7 +99,7 @@ def check_limits(system, solution) -> list[OpAmpLimits]:
             else:
                 if not low <= vd <= high:
                     problems.append(f"{p.id} output {vd:.4g} V is outside its rails [{low:g}, {high:g}] V")
-                if v_pk is not None and v_pk > min(high, -low if low < 0 else high):
+                elif v_pk is not None and v_pk > min(high, -low if low < 0 else high):
                     problems.append(f"{p.id} output peak {v_pk:.4g} V over frequency exceeds its swing "
                                     f"[{low:g}, {high:g}] V (source values read as amplitudes)")
         if imax is not None:
@@ -111,7 +111,7 @@ def check_limits(system, solution) -> list[OpAmpLimits]:
             else:
                 if abs(idc) > im:
                     problems.append(f"{p.id} output current {idc:.4g} A exceeds max_current {im:g} A")
-                if i_pk is not None and i_pk > im:
+                elif i_pk is not None and i_pk > im:
                     problems.append(f"{p.id} output current peak {i_pk:.4g} A over frequency exceeds "
                                     f"max_current {im:g} A")
         out.append(OpAmpLimits(p.id, v, i, rails, imax, v_pk, i_pk, tuple(problems), checked))
@@ -155,8 +155,11 @@ def compliance_range(circuit, values: dict | None = None, load: str | None = Non
     if load is not None and load not in circuit.parameters:
         raise InputError(f"--load {load!r} is not a parameter of the circuit",
                          hint="parameters: " + ", ".join(circuit.parameters), file=circuit.path)
-    known = {n: v for n, v in circuit.known_values().items() if n != load}
-    known.update({n: v for n, v in values.items() if n != load})
+    from .realopamp import resolved_values
+    raw = {n: p.value for n, p in circuit.parameters.items() if p.value is not None and n != load}
+    circuit_wo_load = replace(circuit, parameters={n: (replace(p, value=None) if n == load else p)
+                                                   for n, p in circuit.parameters.items()})
+    known = resolved_values(circuit_wo_load, {n: v for n, v in values.items() if n != load}) if raw or values else {}
     from ..system import build_system
     system = build_system(circuit).substitute(known) if known else build_system(circuit)
     sol = system.solve()

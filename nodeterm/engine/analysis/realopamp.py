@@ -13,7 +13,7 @@ from dataclasses import dataclass, replace
 import sympy
 
 from ..system import System, build_system
-from ..symbols import s
+from ..symbols import param, s
 from .transfer import Bandwidth, bandwidth_3db, transfer_function
 
 REAL_KEYS = ("gbw", "rin", "rout")
@@ -99,10 +99,38 @@ def _bandwidth(expr: sympy.Expr) -> Bandwidth | None:
     return bandwidth_3db(transfer_function(expr))
 
 
+def resolved_values(circuit, values: dict | None = None) -> dict[str, sympy.Expr]:
+    """Parameter values from the file with ``values`` overriding them, each resolved through the others.
+
+    An override reaches the parameters written in terms of it (``Cf = "2*Cg"`` follows ``Cg``).
+
+    >>> from nodeterm.engine.loader import parse_circuit
+    >>> c = parse_circuit('''
+    ... [parameters]
+    ... Cg = "10n"
+    ... Cf = "2*Cg"
+    ... [parts]
+    ... C1 = { kind = "capacitor", nodes = ["a", "gnd"], value = "Cf" }
+    ... ''')
+    >>> resolved_values(c, {"Cg": sympy.Rational(1, 10**7)})["Cf"]
+    1/5000000
+    """
+    raw = {n: p.value for n, p in circuit.parameters.items() if p.value is not None}
+    raw.update({n: sympy.sympify(v) for n, v in (values or {}).items()})
+    subs = {param(n): v for n, v in raw.items()}
+    for _ in range(len(subs) + 1):  # the loader rejects cycles, so this settles
+        new = {k: v.xreplace(subs) for k, v in subs.items()}
+        if new == subs:
+            break
+        subs = new
+    return {str(k): v for k, v in subs.items()}
+
+
 def prepared(circuit, values: dict | None = None) -> System:
-    """``build_system`` with the file's values and then ``values`` substituted."""
-    system = build_system(circuit).substitute_known()
-    return system.substitute(values) if values else system
+    """``build_system`` with the file's values, overridden by ``values``, substituted in one step."""
+    system = build_system(circuit)
+    known = resolved_values(circuit, values)
+    return system.substitute(known) if known else system
 
 
 def compare_models(circuit, values: dict | None = None, frequency: float | None = None) -> ModelComparison:

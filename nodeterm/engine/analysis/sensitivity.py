@@ -76,11 +76,8 @@ class Sensitivity:
 
 def nominal_values(circuit, values: dict | None = None) -> dict[sympy.Symbol, sympy.Expr]:
     """Parameter symbol -> resolved value (file values, then ``values``), numbers only."""
-    known = {**circuit.known_values(), **{n: sympy.sympify(v) for n, v in (values or {}).items()}}
-    subs = {param(n): v for n, v in known.items()}
-    for _ in range(len(subs)):
-        subs = {k: v.xreplace(subs) for k, v in subs.items()}
-    return {k: v for k, v in subs.items() if v.is_number}
+    from .realopamp import resolved_values
+    return {param(n): v for n, v in resolved_values(circuit, values).items() if v.is_number}
 
 
 def sensitivities(quantities: dict[str, sympy.Expr], nominal: dict) -> list[Sensitivity]:
