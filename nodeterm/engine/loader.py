@@ -526,7 +526,11 @@ def load_circuit(path: str | Path) -> Circuit:
         if size > MAX_FILE_BYTES:
             raise InputError(f"file is {size} bytes, more than the limit of {MAX_FILE_BYTES}",
                              hint="circuit files are small text files; check the path", file=name)
-        data = p.read_bytes()
+        with p.open("rb") as handle:  # bounded: a device such as /dev/zero reports size 0
+            data = handle.read(MAX_FILE_BYTES + 1)
+        if len(data) > MAX_FILE_BYTES:
+            raise InputError(f"file is more than the limit of {MAX_FILE_BYTES} bytes",
+                             hint="circuit files are small text files; check the path", file=name)
     except FileNotFoundError:
         raise InputError("no such file", hint="check the path", file=name) from None
     except PermissionError:
