@@ -22,6 +22,7 @@ from textual.worker import get_current_worker
 
 from ..engine import InputError, load_circuit
 from ..present.text import matrix_lines, report, steps_lines
+from .analysis_pane import AnalysisPane, analysis_lines
 from .circuit_pane import CircuitPane
 from .claims_pane import ClaimsPane
 from ..present.export import EXTENSIONS, FORMATS, render, write_atomic
@@ -34,7 +35,7 @@ from .session import Session
 from .steps_pane import StepsPane
 from .values_pane import ValuesPane
 
-PANES = ("circuit", "steps", "values", "matrix", "results", "claims")
+PANES = ("circuit", "steps", "values", "matrix", "results", "claims", "analysis")
 POLL_SECONDS = 1.0
 
 
@@ -60,6 +61,7 @@ class Workbench(App):
         self.last_error = ""        # last message shown (tests and the status line read it)
         self.verdicts: list = []    # audit verdicts of the claims, for the exports
         self.typed_claims: dict[str, str] = {}  # claims typed in the claims pane, name -> text
+        self.analysed = None        # the system whose analyses the analysis pane shows
 
     # --- layout -----------------------------------------------------------
     def compose(self):
@@ -78,6 +80,8 @@ class Workbench(App):
                 yield ResultsPane(id="results-pane")
             with TabPane("6 Claims", id="claims"):
                 yield ClaimsPane(id="claims-pane")
+            with TabPane("7 Analysis", id="analysis"):
+                yield AnalysisPane(id="analysis-pane")
         yield Footer()
 
     def on_mount(self) -> None:
@@ -203,6 +207,8 @@ class Workbench(App):
     def start_solve(self) -> None:
         if self.system is None:
             return
+        self.workers.cancel_group(self, "analysis")
+        self.analysed = None
         self.busy_since, self.busy_what = time.monotonic(), "solving"
         self._update_status()
         self._solve_worker(self.system)
@@ -241,8 +247,45 @@ class Workbench(App):
             self.solution = solution
             self.query_one(ResultsPane).show_solution(system, solution, self.two_d)
             self.start_audit()
+            if self.query_one(TabbedContent).active == "analysis":
+                self.start_analysis()
         self._update_status()
 
+    # --- analyses in a worker (on request) --------------------------------------
+    def start_analysis(self) -> None:
+        pane = self.query_one(AnalysisPane)
+        if self.system is None or self.analysed is self.system:
+            return
+        if self.solution is None:
+            pane.show_lines(["waiting for the solve to finish..."])
+            return
+        self.analysed = self.system
+        pane.show_lines(["analysing... (the pane stays usable; c cancels)"])
+        self.busy_since, self.busy_what = time.monotonic(), "analysing"
+        self._analysis_worker(self.system, self.solution)
+
+    @work(thread=True, exclusive=True, group="analysis")
+    def _analysis_worker(self, system, solution) -> None:
+        worker = get_current_worker()
+        try:
+            lines = analysis_lines(system, solution)
+        except Exception as exc:  # noqa: BLE001
+            lines = [f"! analyses failed: {describe(exc)}"]
+        if not worker.is_cancelled:
+            self.call_from_thread(self._analysed, system, lines)
+
+    @guarded
+    def _analysed(self, system, lines) -> None:
+        if system is not self.system:
+            return
+        self.busy_since = None
+        self.query_one(AnalysisPane).show_lines(lines)
+        self._update_status()
+
+    @guarded
+    def action_analyse(self) -> None:
+        self.show_pane("analysis")
+        self.start_analysis()
     # --- audit of claims in a worker -----------------------------------------
     def start_audit(self) -> None:
         if self.system is None or self.solution is None:
@@ -320,8 +363,11 @@ class Workbench(App):
         self.show_pane(name)
 
     @on(TabbedContent.TabActivated)
+    @guarded
     def _pane_changed(self) -> None:
         self._update_status()
+        if self.query_one(TabbedContent).active == "analysis":
+            self.start_analysis()
 
     def show_pane(self, name: str) -> None:
         self.query_one(TabbedContent).active = name
@@ -413,6 +459,14 @@ class Workbench(App):
         if self.busy_since is None:
             return False
         self.workers.cancel_group(self, "solve")
+        self.workers.cancel_group(self, "analysis")
+        if self.busy_what == "analysing":
+            self.analysed = None
+            self.query_one(AnalysisPane).show_lines(["analyses cancelled (a runs them again)"])
+            self.busy_since = None
+            self.notify("analyses cancelled", timeout=3)
+            self._update_status()
+            return True
         self.busy_since = None
         if self.matrix_form is None:
             self.query_one(MatrixPane).show_note("cancelled (s solves again)")

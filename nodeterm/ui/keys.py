@@ -27,6 +27,7 @@ KEYS: tuple[Key, ...] = (
     Key("4", "pane('matrix')", "Show the matrix A x = b"),
     Key("5", "pane('results')", "Show the results: voltages, currents, [find]"),
     Key("6", "pane('claims')", "Show the claims: type your own, read the verdicts"),
+    Key("7,a", "analyse", "Show the analyses: transfer functions, limits, real op-amp"),
     Key("n", "next_step", "Next step of the procedure", "next"),
     Key("b", "previous_step", "Back one step of the procedure", "back"),
     Key("v", "type_value", "Type a value for a parameter", "value"),
@@ -43,7 +44,7 @@ KEYS: tuple[Key, ...] = (
 )
 
 PANE_HELP = """\
-Panes (keys 1-6; Tab/Shift+Tab moves between the widgets of a pane):
+Panes (keys 1-7; Tab/Shift+Tab moves between the widgets of a pane):
   1 Circuit  parts with nodes and values, nodes (reference, op-amp outputs), parameters
   2 Steps    the procedure step by step: n next, b back. Up/down picks an equation:
              its parts get * in the parts list. Tab (or Left) to the parts list:
@@ -56,6 +57,8 @@ Panes (keys 1-6; Tab/Shift+Tab moves between the widgets of a pane):
              [find] quantities; exact, with engineering values when numeric
   6 Claims   type a claim (an equation, or NAME = value for a [find] name), Enter
              checks it against the node equations; the file's [hand] claims too
+  7 Analysis transfer functions in s (poles, zeros, w0, Q), op-amp output limits,
+             the real op-amp model against the ideal, sensitivities, cautions
 
 The file is reloaded when it changes on disk; if it no longer loads, its error is
 shown on the second line and the last good version stays on screen.

@@ -306,3 +306,26 @@ async def test_two_d_form_toggle(kiln):
         assert "─" in eq          # a fraction bar of the 2-D form
         await pilot.press("f")
         assert "(V_inv - V_in)/Rin + (V_inv - V_out)/Rf = 0" in prompts(app, "#equation-list")[0]
+
+
+async def test_analysis_pane_shows_transfer_function():
+    """Unity-gain Sallen-Key low-pass with equal R and Cf = 2*Cg: w0 = 1/(R*sqrt(Cf*Cg)) and
+    Q = sqrt(Cf/Cg)/2 = 1/sqrt(2), the Butterworth response (common practice, no source; the
+    standard Sallen-Key design equations)."""
+    from nodeterm.cli import demo_path
+    app = Workbench(demo_path("vibration_lowpass.toml"), poll=False)
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(pilot, app)
+        await pilot.press("k")
+        await settle(pilot, app)
+        await pilot.press("7")
+        for _ in range(400):
+            await pilot.pause(0.05)
+            if "second-order" in text_of(app, "#analysis-text"):
+                break
+        text = text_of(app, "#analysis-text")
+        R, Cg = 10_000, sympy.Rational(10, 10**9)
+        w0 = 1 / (R * sympy.sqrt(2 * Cg * Cg))
+        assert f"w0 = {sympy.sstr(w0)}" in text
+        assert "Q = sqrt(2)/2" in text
+        assert "note:" in text

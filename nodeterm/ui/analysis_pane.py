@@ -1,0 +1,91 @@
+"""The analysis pane: transfer functions in s, op-amp limits, the real op-amp model, sensitivities, cautions.
+
+:func:`analysis_lines` calls the engine's analyses and the analysis presenters,
+each section on its own so that one failing analysis is reported in place and
+the others still show. It is computed on request (the pane shown, or ``a``)
+in a worker, because some analyses take a while.
+"""
+
+from __future__ import annotations
+
+from textual.containers import VerticalScroll
+from textual.widgets import Static
+
+from .safety import describe, logger
+
+
+def _section(title: str, make) -> list[str]:
+    try:
+        lines = make()
+    except Exception as exc:  # noqa: BLE001 - one analysis failing must not hide the others
+        logger().error("analysis %r failed", title, exc_info=exc)
+        lines = [f"! could not compute: {describe(exc)}"]
+    if not lines:
+        return []
+    return [title, "-" * len(title)] + list(lines) + [""]
+
+
+def analysis_lines(system, solution) -> list[str]:
+    """Every analysis that applies to the circuit, as text lines."""
+    from ..engine.analysis.cautions import LINEAR_NOTE, merge, node_cautions, source_cautions
+    from ..engine.analysis.limits import check_limits, limit_warnings, limited_opamps
+    from ..engine.analysis.realopamp import compare_models, has_real_model
+    from ..engine.analysis.sensitivity import nominal_values, scalar_quantities, sensitivities
+    from ..engine.analysis.transfer import transfer_functions
+    from ..present import analysis as show
+
+    circuit = system.circuit
+    out: list[str] = []
+    checks: list = []
+
+    def cautions():
+        extra = source_cautions(circuit, system.values) + node_cautions(solution.node_voltages)
+        return show.warning_lines(merge(system.warnings, extra, limit_warnings(checks)))
+
+    def transfer():
+        tfs = transfer_functions(solution, circuit)
+        lines: list[str] = []
+        for tf in tfs.values():
+            lines += show.transfer_lines(tf) + [""]
+        return lines
+
+    def limits():
+        if not limited_opamps(circuit):
+            return []
+        checks.extend(check_limits(system, solution))
+        return show.limits_lines(checks)
+
+    def real():
+        if not has_real_model(circuit):
+            return []
+        return show.comparison_lines(compare_models(circuit, dict(system.values)))
+
+    def sensitivity():
+        quantities = scalar_quantities(circuit)  # symbolic, then evaluated at the nominal values
+        if not quantities:
+            return []
+        return show.sensitivity_lines(sensitivities(quantities, nominal_values(circuit, dict(system.values))))
+
+    out += _section("Transfer functions of the [find] quantities (in s)", transfer)
+    out += _section("Op-amp output limits (rails, max_current)", limits)
+    out += _section("Real op-amp model against the ideal one", real)
+    out += _section("Normalized sensitivities (% change per % change of a parameter)", sensitivity)
+    out += _section("Cautions", cautions)
+    if not out:
+        out = ["No analysis applies: no [find] quantity depends on s, no op-amp has limits or a real model.", ""]
+    out.append(f"note: {LINEAR_NOTE}")
+    return out
+
+
+class AnalysisPane(VerticalScroll):
+    """Shows the analyses of the current system (computed on request)."""
+
+    DEFAULT_CSS = """
+    AnalysisPane > Static { width: 100%; }
+    """
+
+    def compose(self):
+        yield Static("(open this pane or press a to run the analyses)", id="analysis-text", markup=False)
+
+    def show_lines(self, lines: list[str]) -> None:
+        self.query_one("#analysis-text", Static).update("\n".join(lines))
