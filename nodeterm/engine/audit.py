@@ -271,9 +271,11 @@ class Auditor:
             return Verdict(name, HOLDS, "equation", "holds: true by the definition of the part currents "
                            "(nothing left once each I_<part> is written in node voltages)", details=details, **loc)
         if lin is None or not self.xs:
-            return Verdict(name, HOLDS, "equation", "holds: satisfied by the exact solution (not a linear "
-                           "equation in the node voltages, so it is not matched to a generated equation)",
-                           details=details, **loc)
+            foreign = sorted(map(str, (r.free_symbols & self.quantities) - set(self.xs)))
+            why = (f"it involves {', '.join(foreign)}, which the node equations do not contain" if foreign
+                   else "not a linear equation in the node voltages")
+            return Verdict(name, HOLDS, "equation", f"holds: satisfied by the exact solution ({why}, so it is "
+                           "not matched to a generated equation)", details=details, **loc)
         expr, note = lin
         lam = self._combination(expr)
         if lam is None:
