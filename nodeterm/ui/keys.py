@@ -27,7 +27,7 @@ KEYS: tuple[Key, ...] = (
     Key("4", "pane('matrix')", "Show the matrix A x = b"),
     Key("5", "pane('results')", "Show the results: voltages, currents, [find]"),
     Key("6", "pane('claims')", "Show the claims: type your own, read the verdicts"),
-    Key("7,a", "analyse", "Show the analyses: transfer functions, limits, real op-amp"),
+    Key("7,a", "analyse", "Show the analyses: transfer function, limits, real op-amp"),
     Key("n", "next_step", "Next step of the procedure", "next"),
     Key("b", "previous_step", "Back one step of the procedure", "back"),
     Key("v", "type_value", "Type a value for a parameter", "value"),
@@ -67,5 +67,6 @@ Ctrl+P opens the command palette: every action below is there by name.
 
 
 def help_text(extra: tuple[Key, ...] = ()) -> str:
-    rows = [f"  {k.display:<14} {k.title}" for k in KEYS + extra]
-    return "nodeterm workbench: keys\n\n" + "\n".join(rows) + "\n  Ctrl+P         Command palette\n\n" + PANE_HELP
+    rows = [f"  {k.display:<9} {k.title}" for k in KEYS + extra]
+    return ("nodeterm workbench: keys (Esc or q closes this help; up/down scrolls)\n\n" + "\n".join(rows)
+            + "\n  Ctrl+P    Command palette\n\n" + PANE_HELP)

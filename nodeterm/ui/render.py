@@ -2,10 +2,13 @@
 
 One-line form by default (the presenters' SymPy string form); the 2-D form is
 SymPy's own pretty printer, used only when every line fits the width given,
-otherwise the one-line form is kept.
+otherwise the one-line form is kept. Printing is cached: the panes redraw the
+same equations each time a selection moves.
 """
 
 from __future__ import annotations
+
+from functools import lru_cache
 
 import sympy
 
@@ -30,6 +33,7 @@ def pretty(lhs, rhs, width: int) -> str | None:
     return text
 
 
+@lru_cache(maxsize=4096)
 def equation(eq, two_d: bool = False, width: int = 70) -> str:
     """An equation in the chosen form."""
     if two_d:
@@ -37,6 +41,12 @@ def equation(eq, two_d: bool = False, width: int = 70) -> str:
         if text is not None:
             return text
     return equation_text(eq)
+
+
+@lru_cache(maxsize=4096)
+def term(expr) -> str:
+    """One KCL term in the order it was written."""
+    return expr_text(expr, hand=True)
 
 
 def expression(expr, two_d: bool = False, width: int = 70) -> str:

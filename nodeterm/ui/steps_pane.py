@@ -17,7 +17,6 @@ from textual.reactive import reactive
 from textual.widgets import OptionList, Static
 from textual.widgets.option_list import Option
 
-from ..present.format import expr_text
 from . import render
 from .describe import part_nodes
 
@@ -122,9 +121,9 @@ class StepsPane(Vertical):
         extra = []
         if step.kind == "reference" and step.data.get("unknowns"):
             extra.append("Unknowns: " + ", ".join(step.data["unknowns"]))
-        if step.kind == "kcl" and step.data.get("skipped"):
-            extra.append("Skipped (op-amp outputs): " + ", ".join(
-                f"{node} (output of {pid})" for node, pid in step.data["skipped"]))
+        if step.kind == "kcl" and step.data.get("skipped"):  # first, so a short screen never cuts it
+            text = "Skipped (op-amp outputs): " + ", ".join(
+                f"{node} (output of {pid})" for node, pid in step.data["skipped"]) + "\n" + text
         if step.kind == "known_substitution" and step.data.get("unknowns"):
             extra.append("Left to solve for: " + ", ".join(step.data["unknowns"]))
         if not step.equations:
@@ -152,7 +151,7 @@ class StepsPane(Vertical):
         if eq.terms and eq.kind in TERMS_KINDS:
             for t in eq.terms:
                 tmark = render.TIED if t.part == self.selected_part else " "
-                lines.append(f"   {tmark} {t.part}: {expr_text(t.expr, hand=True)}")
+                lines.append(f"   {tmark} {t.part}: {render.term(t.expr)}")
         elif eq.parts:
             lines.append("     parts: " + ", ".join(eq.parts))
         return Content("\n".join(lines))

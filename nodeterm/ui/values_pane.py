@@ -15,8 +15,9 @@ from textual.widgets import Input, Label, OptionList, Static
 from textual.widgets.option_list import Option
 
 from ..present.format import expr_text
+from .render import MARK
 
-HELP = ("Pick a parameter (up/down), Tab to the value box, type a value such as 4.7k, 100nF or "
+HELP = ("Pick a parameter (up/down), Enter or Tab to the value box, type a value such as 4.7k, 100nF or "
         "Gain*Rin, Enter applies.  k: all known values   u: undo last   Esc: leave the box")
 
 
@@ -66,16 +67,19 @@ class ValuesPane(Vertical):
         params = system.circuit.parameters
         width = max((len(n) for n in params), default=2)
         wfile = max((len(p.text) for p in params.values() if p.value is not None), default=1)
+        self.rows = {}
         for name, prm in params.items():
             written = prm.text if prm.value is not None else "-"
             now = system.values.get(name)
             state = f"now {expr_text(now)}" if now is not None else "now a symbol"
-            lst.add_option(Option(Content(f"{name.ljust(width)}  file: {written.ljust(wfile)}  {state}"), id=name))
+            self.rows[name] = f"{name.ljust(width)}  file: {written.ljust(wfile)}  {state}"
+            lst.add_option(Option(Content("  " + self.rows[name]), id=name))
         if not params:
             lst.add_option(Option("(this circuit has no parameters)", id="", disabled=True))
         names = list(params)
         lst.highlighted = names.index(keep) if keep in names else (0 if names else None)
         self._label()
+        self._marks()
         self.history = history
         self.query_one("#value-history", Static).update(
             "Applied, in order: " + ("; ".join(f"{i}. {h}" for i, h in enumerate(history, 1)) or "nothing yet"))
@@ -84,9 +88,18 @@ class ValuesPane(Vertical):
         name = self.selected
         self.query_one("#value-label", Label).update(f"{name} =" if name else "value:")
 
+    def _marks(self) -> None:
+        """Mark the picked parameter with a textual marker (legible without colour)."""
+        lst = self.query_one("#param-list", OptionList)
+        picked = self.selected
+        for i, name in enumerate(getattr(self, "rows", {})):
+            mark = f"{MARK} " if name == picked else "  "
+            lst.replace_option_prompt_at_index(i, Content(mark + self.rows[name]))
+
     @on(OptionList.OptionHighlighted, "#param-list")
     def _picked(self, event: OptionList.OptionHighlighted) -> None:
         self._label()
+        self._marks()
         self.show_error("")
 
     @on(OptionList.OptionSelected, "#param-list")
