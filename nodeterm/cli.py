@@ -44,15 +44,15 @@ def prepare(args) -> "object":
     """Load, build and substitute as the common options ask."""
     circuit = load_circuit(args.file)
     system = build_system(circuit)
-    if getattr(args, "known", False):
-        system = system.substitute_known()
     sets = parse_sets(getattr(args, "set", None))
-    if sets:
+    if sets:  # --set first: its values win over the file's when --known is given too
         try:
             system = system.substitute(sets)
         except InputError as err:
             err.file = err.file if err.file not in (None, circuit.path) else "--set"
             raise
+    if getattr(args, "known", False):
+        system = system.substitute_known()
     return system
 
 

@@ -129,3 +129,14 @@ def test_engine_and_batch_commands_never_import_textual(tmp_path):
     code = ("import sys, nodeterm.engine, nodeterm.present.text, nodeterm.present.jsonout, nodeterm.cli;"
             "assert 'textual' not in sys.modules, 'textual imported'")
     subprocess.run([sys.executable, "-c", code], check=True)
+
+
+def test_set_values_win_over_file_values_with_known():
+    from nodeterm.cli import main
+    import io, contextlib, json, pathlib
+    demo = pathlib.Path(__file__).resolve().parents[1] / "circuits" / "kiln_preamp.toml"
+    out = io.StringIO()
+    with contextlib.redirect_stdout(out):
+        assert main(["solve", str(demo), "--known", "--set", "Gain=47", "--json"]) == 0
+    data = json.loads(out.getvalue())
+    assert data["find"]["gain"] == "-47"  # Rf = Gain*Rin in the file follows the --set value

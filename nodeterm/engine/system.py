@@ -535,9 +535,25 @@ class System:
                        steps=self.steps + (step,))
 
     def substitute_known(self) -> "System":
-        """Substitute every parameter that has a value in the circuit file."""
-        known = {n: v for n, v in self.circuit.known_values().items() if n not in self.values}
-        return self.substitute(known) if known else self
+        """Substitute every parameter that has a value in the circuit file.
+
+        Values already substituted win over the file's: a file value written in
+        terms of them (``Rf = "Gain*Rin"`` after ``Rin = 4.7k``) uses theirs.
+        """
+        raw = {n: p.value for n, p in self.circuit.parameters.items()
+               if p.value is not None and n not in self.values}
+        if not raw:
+            return self
+        mapping = {param(n): v for n, v in {**raw, **self.values}.items()}
+        known = {}
+        for name, value in raw.items():
+            for _ in range(len(mapping) + 1):  # the loader rejects cycles, so this ends
+                new = value.xreplace(mapping)
+                if new == value:
+                    break
+                value = new
+            known[name] = value
+        return self.substitute(known)
 
     def without_substitutions(self) -> "System":
         """The system as generated, with no parameter values substituted."""
