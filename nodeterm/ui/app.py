@@ -22,6 +22,7 @@ from textual.worker import get_current_worker
 
 from ..engine import InputError, load_circuit
 from ..present.text import matrix_lines, report, steps_lines
+from . import threads
 from .analysis_pane import AnalysisPane, analysis_lines
 from .circuit_pane import CircuitPane
 from .claims_pane import ClaimsPane
@@ -85,6 +86,7 @@ class Workbench(App):
         yield Footer()
 
     def on_mount(self) -> None:
+        threads.install()
         self.query_one("#problem").display = False
         self.set_interval(0.5, self._tick)
         if self.poll:

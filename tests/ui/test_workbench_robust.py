@@ -76,3 +76,26 @@ async def test_singular_circuit_reports_without_dying(tmp_path):
         assert app.is_running
         if app.solution is None:
             assert "no results" in text_of(app, "#results-text")
+
+
+async def test_quit_during_a_long_solve_does_not_wait_for_it(kiln, monkeypatch):
+    """Solves run on daemon threads, so quitting never hangs on an abandoned solve."""
+    release = threading.Event()
+    names = []
+
+    def stuck(self):
+        names.append((threading.current_thread().name, threading.current_thread().daemon))
+        release.wait(30)
+        raise RuntimeError("abandoned")
+    monkeypatch.setattr(System, "solve", stuck)
+    app = Workbench(str(kiln), poll=False)
+    try:
+        async with app.run_test(size=SIZE) as pilot:
+            await pilot.pause(0.5)
+            assert "BUSY" in text_of(app, "#status")
+            await pilot.press("q")
+            await pilot.pause()
+        assert app.return_code == 0
+        assert names == [("nodeterm-worker", True)]
+    finally:
+        release.set()
