@@ -159,6 +159,7 @@ class Workbench(App):
             self.reload()
 
     # --- showing ------------------------------------------------------------
+    @guarded
     def watch_system(self, system) -> None:
         if system is None:
             return
@@ -170,12 +171,14 @@ class Workbench(App):
         self.query_one(ResultsPane).show_note("solving...")
         self.start_solve()
 
+    @guarded
     def watch_two_d(self, two_d: bool) -> None:
         self.query_one(StepsPane).set_two_d(two_d)
         if self.solution is not None:
             self.query_one(ResultsPane).show_solution(self.system, self.solution, two_d)
 
     @on(StepsPane.StepChanged)
+    @guarded
     def _step_changed(self) -> None:
         self._update_status()
 

@@ -13,8 +13,11 @@ from textual.containers import Vertical, VerticalScroll
 from textual.message import Message
 from textual.widgets import Input, Static
 
-HELP = ("Type a claim, Enter checks it: an equation, e.g. (V_inv - V_in)/Rin + (V_inv - V_out)/Rf = 0,\n"
-        "or a result as NAME = value with a [find] name, e.g. gain = -Rf/Rin.  Esc leaves the box.")
+from .safety import guarded
+
+HELP = ("Type a claim, Enter checks it against the node equations:\n"
+        "  an equation, e.g.  (V_inv - V_in)/Rin + (V_inv - V_out)/Rf = 0\n"
+        "  or a result  NAME = value  for a [find] name, e.g.  gain = -Rf/Rin   (Esc leaves the box)")
 
 
 class ClaimsPane(Vertical):
@@ -39,6 +42,7 @@ class ClaimsPane(Vertical):
         return self.query_one("#claim-input", Input).value.strip()
 
     @on(Input.Submitted, "#claim-input")
+    @guarded
     def _submitted(self, event: Input.Submitted) -> None:
         if not event.value.strip():
             self.show_error("! type a claim first, e.g. V_inv = 0")

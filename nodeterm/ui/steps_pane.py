@@ -18,6 +18,7 @@ from textual.widgets import OptionList, Static
 from textual.widgets.option_list import Option
 
 from . import render
+from .safety import guarded
 from .describe import part_nodes
 
 TERMS_KINDS = ("kcl", "supernode_kcl")
@@ -96,14 +97,17 @@ class StepsPane(Vertical):
         self.two_d = on_
         self._fill_equations()
 
+    @guarded
     def action_swap_lists(self) -> None:
         parts = self.query_one("#parts-list", OptionList)
         self.action_focus_list("equation-list" if parts.has_focus else "parts-list")
 
+    @guarded
     def action_focus_list(self, name: str) -> None:
         self.query_one(f"#{name}", OptionList).focus()
 
     # --- rendering ----------------------------------------------------------
+    @guarded
     def watch_index(self, index: int) -> None:
         if not self.is_mounted or self.system is None:
             return
@@ -184,11 +188,13 @@ class StepsPane(Vertical):
 
     # --- selection ----------------------------------------------------------
     @on(OptionList.OptionHighlighted, "#equation-list")
+    @guarded
     def _equation_highlighted(self, event: OptionList.OptionHighlighted) -> None:
         if event.option_index == self.selected_eq:
             return
         self.select_equation(event.option_index)
 
+    @guarded
     def on_descendant_focus(self, event) -> None:
         parts = self.query_one("#parts-list", OptionList)
         if event.widget is parts:
@@ -198,6 +204,7 @@ class StepsPane(Vertical):
                 self.select_part(parts.get_option_at_index(parts.highlighted).id)
 
     @on(OptionList.OptionHighlighted, "#parts-list")
+    @guarded
     def _part_highlighted(self, event: OptionList.OptionHighlighted) -> None:
         if not self.query_one("#parts-list").has_focus:
             return

@@ -16,6 +16,7 @@ from textual.widgets.option_list import Option
 
 from ..present.format import expr_text
 from .render import MARK
+from .safety import guarded
 
 HELP = ("Pick a parameter (up/down), Enter or Tab to the value box, type a value such as 4.7k, 100nF or "
         "Gain*Rin, Enter applies.  k: all known values   u: undo last   Esc: leave the box")
@@ -97,16 +98,19 @@ class ValuesPane(Vertical):
             lst.replace_option_prompt_at_index(i, Content(mark + self.rows[name]))
 
     @on(OptionList.OptionHighlighted, "#param-list")
+    @guarded
     def _picked(self, event: OptionList.OptionHighlighted) -> None:
         self._label()
         self._marks()
         self.show_error("")
 
     @on(OptionList.OptionSelected, "#param-list")
+    @guarded
     def _chosen(self, event: OptionList.OptionSelected) -> None:
         self.query_one("#value-input", Input).focus()
 
     @on(Input.Submitted, "#value-input")
+    @guarded
     def _submitted(self, event: Input.Submitted) -> None:
         name = self.selected
         if not name:

@@ -99,3 +99,16 @@ async def test_quit_during_a_long_solve_does_not_wait_for_it(kiln, monkeypatch):
         assert names == [("nodeterm-worker", True)]
     finally:
         release.set()
+
+
+async def test_quit_asks_before_losing_a_typed_claim(kiln):
+    app = Workbench(str(kiln), poll=False)
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(pilot, app)
+        await pilot.press("6", *"V_inv = 0", "ctrl+q")
+        await pilot.pause()
+        from nodeterm.ui.dialogs import ConfirmScreen
+        assert isinstance(app.screen, ConfirmScreen)
+        assert "claim 'V_inv = 0'" in text_of(app.screen, ".dialog-question")
+        await pilot.press("escape")
+        assert app.is_running and app.query_one("#claim-input").value == "V_inv = 0"
