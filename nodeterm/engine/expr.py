@@ -71,10 +71,11 @@ class ExpressionError(InputError):
 
 
 _NUMBER = re.compile(
-    r"(?P<mant>(?:\d+\.?\d*|\.\d+))(?P<exp>[eE][+-]?\d+)?"
+    r"(?P<mant>(?:[0-9]+\.?[0-9]*|\.[0-9]+))(?P<exp>[eE][+-]?[0-9]+)?"
     r"(?P<prefix>[pnuµμmkMGT])?(?P<unit>ohm|Ω|Hz|F|H|V|A|S)?"
 )
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
+_DIGITS = "0123456789"  # ASCII only: str.isdigit() and \d also accept ¹ or ٣
 _OPERATORS = ("**", "+", "-", "*", "/", "^", "(", ")")
 
 
@@ -121,7 +122,7 @@ def tokenize(text: str) -> list[Token]:
         if ch in " \t":
             i += 1
             continue
-        if ch.isdigit() or (ch == "." and i + 1 < len(text) and text[i + 1].isdigit()):
+        if ch in _DIGITS or (ch == "." and i + 1 < len(text) and text[i + 1] in _DIGITS):
             m = _NUMBER.match(text, i)
             assert m is not None  # a digit always starts a number
             end = m.end()
