@@ -18,6 +18,7 @@ import sympy
 from sympy.polys.matrices import DomainMatrix
 from sympy.polys.matrices.exceptions import DMNonInvertibleMatrixError
 
+from . import fastsolve
 from .errors import SolveError
 from .symbols import I, V, param, s
 
@@ -63,9 +64,19 @@ def canonical(expr: sympy.Expr) -> sympy.Expr:
         return expr
     expr = sympy.cancel(sympy.together(expr))
     num, den = sympy.fraction(expr)
+    return tidy_fraction(num, den)
+
+
+def tidy_fraction(num: sympy.Expr, den: sympy.Expr) -> sympy.Expr:
+    """The printed form of a fraction already in lowest terms (the last half of :func:`canonical`).
+
+    >>> R = sympy.Symbol("R")
+    >>> tidy_fraction(R*s + R, 2*s)
+    (R*s + R)/(2*s)
+    """
     num, den = sympy.expand(num), sympy.expand(den)
     small = len(sympy.Add.make_args(num)) + len(sympy.Add.make_args(den)) <= FACTOR_LIMIT
-    if expr.has(s):
+    if num.has(s) or den.has(s):
         func = sympy.factor if small else (lambda x: x)
         num = sympy.collect(num, s, func=func)
         den = sympy.collect(den, s, func=func)
@@ -99,6 +110,21 @@ def solve_linear(A: sympy.Matrix, b: sympy.Matrix) -> list[sympy.Expr] | None:
         return None
     if n == 0:
         return []
+    if fastsolve.flint is not None:
+        try:
+            return fastsolve.solve_linear_fast(A, b)
+        except fastsolve.Unsupported:
+            pass
+    return solve_linear_sympy(A, b)
+
+
+def solve_linear_sympy(A: sympy.Matrix, b: sympy.Matrix) -> list[sympy.Expr] | None:
+    """The pure-SymPy path of :func:`solve_linear` (``DomainMatrix.solve_den``); same answers."""
+    n = A.shape[1]
+    if A.shape[0] != n:
+        return None
+    if n == 0:
+        return []
     M, back = _dummies_for_constants(A.row_join(b))
     dM = DomainMatrix.from_Matrix(M)
     if dM.domain.is_Field and not dM.domain.is_Exact:  # floats would make exactness meaningless
@@ -124,7 +150,20 @@ def solve_linear(A: sympy.Matrix, b: sympy.Matrix) -> list[sympy.Expr] | None:
 
 
 def solve_system(system) -> Solution:
-    """Solve a :class:`~.system.System` and derive every current and [find] quantity."""
+    """Solve a :class:`~.system.System` and derive every current and [find] quantity.
+
+    Uses the FLINT polynomial path (:mod:`.fastsolve`) when it applies, else the SymPy path below.
+    """
+    if fastsolve.flint is not None:
+        try:
+            return fastsolve.solve_system_fast(system)
+        except fastsolve.Unsupported:
+            pass
+    return solve_system_sympy(system)
+
+
+def solve_system_sympy(system) -> Solution:
+    """The pure-SymPy path of :func:`solve_system` (same answers, much slower on big circuits)."""
     circuit = system.circuit
     m = system.matrix()
     if len(m.rows) != len(m.cols):

@@ -1,0 +1,680 @@
+"""Exact solving on FLINT multivariate polynomials: big symbolic circuits in a fraction of a second.
+
+Why hand-written: SymPy's general solvers build and simplify expression trees at every step, and
+FLINT (through python-flint's ``fmpz_mpoly``) has fast polynomial arithmetic and GCDs but no
+linear solver over a polynomial ring. What is written here is only the glue:
+
+* :class:`PolyField` turns SymPy expressions into fractions of integer polynomials (the circuit's
+  symbols are the generators; pi and roots become extra generators) and back;
+* :func:`determinant` is fraction-free (Bareiss) elimination with a sparsity-preserving pivot
+  order (Markowitz cost, ties broken by the smaller polynomial) and *lazy row scaling*: a row
+  untouched by a step owes the factor ``p_k / p_(k-1)``, which telescopes and then cancels in the
+  row's next update, so untouched rows cost nothing;
+* :func:`cramer` gets each unknown as a ratio of two such determinants (Cramer's rule), which for
+  ladder-like circuit matrices avoids multiplying large minors together;
+* :func:`solve_system_fast` derives every current and ``[find]`` quantity in the same
+  arithmetic and reduces each result once, by one polynomial GCD.
+
+Results come out in the canonical form of :func:`nodeterm.engine.solve.canonical`: numerator and
+denominator coprime over the integers, the denominator's leading coefficient positive in lex order
+of SymPy's own generator order (so the fraction is the one ``sympy.cancel`` gives), collected in s.
+Small results are turned into SymPy expressions; a result with more than :func:`large_terms` terms
+becomes a :class:`LargeExpr`, which prints straight from the polynomials and builds its SymPy
+expression only when something asks for one.
+
+Without python-flint every caller falls back to the SymPy path in :mod:`.solve`, which gives the
+same answers.
+"""
+
+from __future__ import annotations
+
+import sympy
+from sympy.polys.polyutils import _sort_gens
+
+from .symbols import I, V, param, s
+
+try:  # a dependency, but keep the SymPy path working without it
+    import flint
+except ImportError:  # pragma: no cover - exercised only where python-flint is missing
+    flint = None
+
+
+
+def large_terms() -> int:
+    """Results with more terms (numerator plus denominator) stay polynomials until asked for.
+
+    The same limit as the canonical form's: above :data:`nodeterm.engine.solve.FACTOR_LIMIT`
+    terms a result is printed expanded and collected in s, which the polynomials do directly.
+    """
+    from .solve import FACTOR_LIMIT
+    return FACTOR_LIMIT
+
+
+class Unsupported(Exception):
+    """The expression has something the polynomial path does not model (floats, functions...)."""
+
+
+class PolyField:
+    """Fractions of integer polynomials in a fixed set of SymPy symbols.
+
+    A fraction is a pair ``(num, den)`` of ``fmpz_mpoly``; operations do not reduce (one GCD at
+    the end, in :meth:`reduce`).
+
+    >>> R, C = sympy.symbols("R C")
+    >>> F = PolyField([R, C, s])
+    >>> F.expr(F.reduce(F.ev(1/(1 + 1/(s*R*C)))))
+    C*R*s/(C*R*s + 1)
+    """
+
+    def __init__(self, symbols, atoms=()) -> None:
+        if flint is None:
+            raise Unsupported("python-flint is not installed")
+        self.atoms = {a: sympy.Dummy("k") for a in atoms}
+        gens = list(_sort_gens(list(set(symbols) | set(self.atoms.values()))))
+        back = {d: a for a, d in self.atoms.items()}
+        names = [sympy.sstr(back.get(g, g)) for g in gens]
+        if len(set(names)) != len(names):
+            raise Unsupported("two symbols share a name")
+        self.symbols = gens
+        self.names = names
+        self.index = {g: i for i, g in enumerate(gens)}
+        self.ctx = flint.fmpz_mpoly_ctx.get(tuple(names) or ("_",), "lex")
+        self.gens = self.ctx.gens()
+        self.one = self.ctx.constant(1)
+        self.zero = self.ctx.constant(0)
+        self.s_index = self.index.get(s)
+        self._rest = None
+
+    # --- arithmetic on fractions -----------------------------------------------------
+    def const(self, value) -> tuple:
+        value = sympy.Rational(value)
+        return self.ctx.constant(int(value.p)), self.ctx.constant(int(value.q))
+
+    def add(self, a: tuple, b: tuple) -> tuple:
+        (an, ad), (bn, bd) = a, b
+        if an.is_zero():
+            return b
+        if bn.is_zero():
+            return a
+        if ad == bd:
+            return an + bn, ad
+        if ad.is_one():
+            return an * bd + bn, bd
+        if bd.is_one():
+            return an + bn * ad, ad
+        g = ad.gcd(bd)
+        if g.is_one():
+            return an * bd + bn * ad, ad * bd
+        bdg = bd / g
+        return an * bdg + bn * (ad / g), ad * bdg
+
+    def neg(self, a: tuple) -> tuple:
+        return -a[0], a[1]
+
+    def sub(self, a: tuple, b: tuple) -> tuple:
+        return self.add(a, self.neg(b))
+
+    def mul(self, a: tuple, b: tuple) -> tuple:
+        return a[0] * b[0], a[1] * b[1]
+
+    def inv(self, a: tuple) -> tuple:
+        if a[0].is_zero():
+            raise ZeroDivisionError("division by zero in a result")
+        return a[1], a[0]
+
+    def ev(self, expr, env: dict | None = None) -> tuple:
+        """The fraction of a SymPy expression; symbols in ``env`` are replaced by their fractions."""
+        env = env or {}
+        cache: dict = {}
+
+        def go(e):
+            hit = cache.get(e)
+            if hit is not None:
+                return hit
+            if e in env:
+                out = env[e]
+            elif e.is_Symbol:
+                i = self.index.get(e)
+                if i is None:
+                    raise Unsupported(f"symbol {e} is not a generator")
+                out = (self.gens[i], self.one)
+            elif e.is_Rational:
+                out = self.const(e)
+            elif e.is_Add:
+                out = (self.zero, self.one)
+                for arg in e.args:
+                    out = self.add(out, go(arg))
+            elif e.is_Mul:
+                out = (self.one, self.one)
+                for arg in e.args:
+                    out = self.mul(out, go(arg))
+            elif e.is_Pow and e.exp.is_Integer and e not in self.atoms:
+                base = go(e.base)
+                k = int(e.exp)
+                if k < 0:
+                    base, k = self.inv(base), -k
+                out = (base[0] ** k, base[1] ** k)
+            elif e in self.atoms:
+                i = self.index[self.atoms[e]]
+                out = (self.gens[i], self.one)
+            else:
+                raise Unsupported(f"cannot treat {e} as a polynomial")
+            cache[e] = out
+            return out
+
+        return go(sympy.sympify(expr))
+
+    def reduce(self, a: tuple) -> tuple:
+        """Lowest terms over the integers, the denominator's leading coefficient positive."""
+        num, den = a
+        if num.is_zero():
+            return self.zero, self.one
+        if not den.is_one():
+            g = num.gcd(den)
+            if not g.is_one():
+                num, den = num / g, den / g
+            if den.leading_coefficient() < 0:
+                num, den = -num, -den
+        return num, den
+
+    # --- back to SymPy --------------------------------------------------------------------
+    def poly_expr(self, p) -> sympy.Expr:
+        back = {d: a for a, d in self.atoms.items()}
+        syms = [back.get(g, g) for g in self.symbols]
+        terms = []
+        for exps, c in p.to_dict().items():
+            factors = [syms[i] ** e for i, e in enumerate(exps) if e]
+            terms.append(sympy.Mul(sympy.Integer(int(c)), *factors))
+        return sympy.Add(*terms)
+
+    def expr(self, a: tuple) -> sympy.Expr:
+        """The canonical SymPy form of a reduced fraction (what ``canonical`` would give)."""
+        from .solve import canonical, tidy_fraction
+        value = self.poly_expr(a[0]) / self.poly_expr(a[1])  # what sympy.cancel returns
+        if self.atoms:  # radicals and pi: let SymPy decide the form
+            return canonical(value)
+        if value.is_Number:
+            return value
+        return tidy_fraction(*sympy.fraction(value))
+
+    def result(self, a: tuple, reduced: bool = False):
+        """A SymPy expression for a small result, a :class:`LargeExpr` for a large one.
+
+        A large fraction is not even reduced here: :class:`LargeExpr` does it when first used.
+        """
+        if len(a[0]) + len(a[1]) > large_terms():
+            return LargeExpr(self, a[0], a[1], reduced)
+        if not reduced:
+            a = self.reduce(a)
+        return self.expr(a)
+
+    def depends_on_s(self, a: tuple) -> bool:
+        if self.s_index is None:
+            return False
+        return a[0].degrees()[self.s_index] > 0 or a[1].degrees()[self.s_index] > 0
+
+    # --- text straight from the polynomials -----------------------------------------------
+    def poly_text(self, p) -> str:
+        """SymPy syntax of a polynomial, collected in s (terms grouped by the power of s).
+
+        The coefficient of each power of s is split off inside FLINT (evaluate at s = 0, subtract,
+        divide by s), so even a polynomial of 100,000 terms is printed at C speed.
+        """
+        si = self.s_index
+        if si is None or p.degrees()[si] == 0:
+            return _flint_text(p)
+        name = self.names[si]
+        sgen = self.gens[si]
+        groups = []
+        k = 0
+        while not p.is_zero():
+            q = p.subs({name: 0})
+            if not q.is_zero():
+                groups.append((k, q))
+                p = p - q
+            p = p / sgen
+            k += 1
+        pieces = []
+        for k, q in reversed(groups):
+            text = _flint_text(q)
+            if k == 0:
+                pieces.append(text)
+                continue
+            sk = "s" if k == 1 else f"s**{k}"
+            if text == "1":
+                pieces.append(sk)
+            elif text == "-1":
+                pieces.append("-" + sk)
+            elif len(q) == 1:
+                pieces.append(f"{text}*{sk}")
+            else:
+                pieces.append(f"{sk}*({text})")
+        out = pieces[0]
+        for piece in pieces[1:]:
+            out += " - " + piece[1:] if piece.startswith("-") else " + " + piece
+        return out
+
+    def text(self, a: tuple) -> str:
+        """One-line SymPy-syntax text of a reduced fraction."""
+        num, den = a
+        nt = self.poly_text(num)
+        if den.is_one():
+            return nt
+        dt = self.poly_text(den)
+        if len(num) > 1:
+            nt = f"({nt})"
+        if len(den) > 1 or "*" in dt:
+            dt = f"({dt})"
+        return f"{nt}/{dt}"
+
+
+def _flint_text(p) -> str:
+    return str(p).replace("^", "**")
+
+
+class LargeExpr:
+    """A large exact result kept as polynomials: prints at once, becomes SymPy on demand.
+
+    It stands in for a SymPy expression in :class:`~.solve.Solution`: ``str`` and SymPy's
+    printers give its canonical text (numerator and denominator collected in s), and
+    ``sympy.sympify(x)`` or any SymPy attribute (``x.subs``, ``x.free_symbols``...) builds and
+    caches the real expression. Arithmetic delegates to that expression.
+    """
+
+    is_large = True
+    is_number = False
+    is_Number = False
+
+    def __init__(self, field: PolyField, num, den, reduced: bool = False) -> None:
+        self._field = field
+        self._frac = (num, den)
+        self._reduced = reduced
+        self._text: str | None = None
+        self._expr = None
+
+    @property
+    def fraction(self) -> tuple:
+        """(numerator, denominator) as ``fmpz_mpoly``, in lowest terms."""
+        if not self._reduced:
+            self._frac = self._field.reduce(self._frac)
+            self._reduced = True
+        return self._frac
+
+    @property
+    def text(self) -> str:
+        """The canonical one-line text (identical to ``sympy.sstr`` of the expression)."""
+        if self._text is None:
+            num, den = self.fraction
+            if len(num) + len(den) <= large_terms():  # small after all: SymPy's factored form
+                self._text = sympy.sstr(self._sympy_(), order="none")
+            else:
+                self._text = self._field.text(self.fraction)
+        return self._text
+
+    @property
+    def terms(self) -> int:
+        """Number of terms in numerator plus denominator."""
+        return len(self.fraction[0]) + len(self.fraction[1])
+
+    def depends_on_s(self) -> bool:
+        return self._field.depends_on_s(self.fraction)
+
+    def _sympy_(self) -> sympy.Expr:
+        if self._expr is None:
+            self._expr = self._field.expr(self.fraction)
+        return self._expr
+
+    def _sympystr(self, printer) -> str:
+        return self.text
+
+    def __str__(self) -> str:
+        return self.text
+
+    def __repr__(self) -> str:
+        return self.text
+
+    def __getattr__(self, name):
+        if name.startswith("_"):
+            raise AttributeError(name)
+        return getattr(self._sympy_(), name)
+
+    def __eq__(self, other) -> bool:
+        if isinstance(other, LargeExpr) and self._field is other._field:
+            return self.fraction == other.fraction
+        return self._sympy_() == other
+
+    def __hash__(self) -> int:
+        return hash(self._sympy_())
+
+    def __neg__(self):
+        return -self._sympy_()
+
+    def __add__(self, o):
+        return self._sympy_() + o
+
+    def __radd__(self, o):
+        return o + self._sympy_()
+
+    def __sub__(self, o):
+        return self._sympy_() - o
+
+    def __rsub__(self, o):
+        return o - self._sympy_()
+
+    def __mul__(self, o):
+        return self._sympy_() * o
+
+    def __rmul__(self, o):
+        return o * self._sympy_()
+
+    def __truediv__(self, o):
+        return self._sympy_() / o
+
+    def __rtruediv__(self, o):
+        return o / self._sympy_()
+
+    def __pow__(self, o):
+        return self._sympy_() ** o
+
+
+# --- fraction-free elimination ------------------------------------------------------------------
+
+def _parity(perm: list[int]) -> int:
+    """+1 or -1: the sign of a permutation given as a list."""
+    seen = [False] * len(perm)
+    sign = 1
+    for i in range(len(perm)):
+        if seen[i]:
+            continue
+        j, length = i, 0
+        while not seen[j]:
+            seen[j] = True
+            j = perm[j]
+            length += 1
+        if length % 2 == 0:
+            sign = -sign
+    return sign
+
+
+def determinant(rows: list[dict], n: int, one):
+    """Determinant of a sparse square polynomial matrix by fraction-free elimination.
+
+    Args:
+        rows: one dict per row, column -> nonzero polynomial (columns ``0..n-1``).
+        n: the size.
+        one: the polynomial 1 (its context).
+
+    Pivots follow the Markowitz cost, so sparse circuit matrices keep their sparsity; ties go to
+    the most recently updated row (elimination stays on one front: two fronts would multiply
+    each other's minors into every pivot), then to the shorter polynomial. A row not touched by a step keeps its stored entries; the
+    pending factor ``piv[k]/piv[L]`` cancels in the next update of that row, which divides by
+    ``piv[L]`` instead of ``piv[k]`` (lazy row scaling: no extra work for untouched rows).
+
+    >>> import flint
+    >>> ctx = flint.fmpz_mpoly_ctx.get(("x", "y"), "lex")
+    >>> x, y = ctx.gens()
+    >>> determinant([{0: x, 1: y}, {0: y, 1: x}], 2, ctx.constant(1))
+    x^2 - y^2
+    """
+    rows = [dict(r) for r in rows]
+    col_rows: dict[int, set[int]] = {c: set() for c in range(n)}
+    for i, r in enumerate(rows):
+        for c in r:
+            col_rows[c].add(i)
+    level = [0] * n
+    piv = [one]
+    live_rows = set(range(n))
+    order_r: list[int] = []
+    order_c: list[int] = []
+    for k in range(n):
+        best = None
+        for i in live_rows:
+            r = rows[i]
+            rn = len(r) - 1
+            for c, v in r.items():
+                cost = (rn * (len(col_rows[c]) - 1), -level[i], len(v))
+                if best is None or cost < best[0]:
+                    best = (cost, i, c)
+        if best is None:
+            return one * 0
+        _, r_i, c = best
+        prow = rows[r_i]
+        if level[r_i] < k:  # the pivot row needs its true entries
+            num, den = piv[k], piv[level[r_i]]
+            prow = {j: v * num / den for j, v in prow.items()}
+        p = prow[c]
+        live_rows.discard(r_i)
+        for i in list(col_rows[c]):
+            if i == r_i or i not in live_rows:
+                continue
+            row = rows[i]
+            a_ic = row[c]
+            div = piv[level[i]]
+            new = {}
+            for j in set(row) | set(prow):
+                if j == c:
+                    continue
+                v = row.get(j)
+                w = prow.get(j)
+                if v is None:
+                    val = -(a_ic * w)
+                elif w is None:
+                    val = p * v
+                else:
+                    val = p * v - a_ic * w
+                if not div.is_one():
+                    val = val / div
+                if not val.is_zero():
+                    new[j] = val
+            for j in row:
+                if j not in new:
+                    col_rows[j].discard(i)
+            for j in new:
+                col_rows[j].add(i)
+            rows[i] = new
+            level[i] = k + 1
+        for j in prow:
+            col_rows[j].discard(r_i)
+        piv.append(p)
+        order_r.append(r_i)
+        order_c.append(c)
+    return piv[n] * (_parity(order_r) * _parity(order_c))
+
+
+def cramer(rows: list[dict], n: int, one) -> tuple[list, object] | None:
+    """Solve a sparse square polynomial system by Cramer's rule.
+
+    Args:
+        rows: one dict per equation, column -> nonzero polynomial; column ``n`` is the right side.
+        n: number of unknowns.
+        one: the polynomial 1.
+
+    Returns:
+        ``(X, D)`` with ``x_j = X[j]/D`` (not reduced), or None when the matrix is singular.
+
+    Each numerator is its own sparse determinant. Back-substitution would multiply large
+    minors together and divide them again; for ladder-like circuit matrices the separate
+    eliminations are far cheaper, since each only ever multiplies a large minor by a small entry.
+    """
+    A = [{j: v for j, v in r.items() if j < n} for r in rows]
+    D = determinant(A, n, one)
+    if D.is_zero():
+        return None
+    X = []
+    for c in range(n):
+        Ac = []
+        for r, full in zip(A, rows):
+            rc = {j: v for j, v in r.items() if j != c}
+            if n in full:
+                rc[c] = full[n]
+            Ac.append(rc)
+        X.append(determinant(Ac, n, one))
+    return X, D
+
+
+def _symbols_and_atoms(exprs) -> tuple[set, set]:
+    syms: set = set()
+    atoms: set = set()
+    for e in exprs:
+        e = sympy.sympify(e)
+        if e.has(sympy.Float):
+            raise Unsupported("floating-point numbers")
+        syms |= e.free_symbols
+        atoms |= {a for a in e.atoms(sympy.Pow) if a.exp.is_Rational and not a.exp.is_Integer and a.base.is_number}
+        atoms |= set(e.atoms(sympy.NumberSymbol))
+    return syms, atoms
+
+
+def solve_fractions(field: PolyField, A: sympy.Matrix, b: sympy.Matrix):
+    """Solve A x = b in ``field``: a list of unreduced fractions sharing one denominator, or None."""
+    n = A.shape[1]
+    rows = []
+    for i in range(A.shape[0]):
+        entries = {}
+        for j in range(n):
+            if A[i, j] != 0:
+                entries[j] = field.ev(A[i, j])
+        if b[i, 0] != 0:
+            entries[n] = field.ev(b[i, 0])
+        den = field.one
+        for _, d in entries.values():  # clear the row's denominators (their lcm)
+            if not d.is_one():
+                g = den.gcd(d)
+                den = den * (d / g) if not g.is_one() else den * d
+        rows.append({j: nd[0] * (den / nd[1]) for j, nd in entries.items() if not nd[0].is_zero()})
+    out = cramer(rows, n, field.one)
+    if out is None:
+        return None
+    X, D = out
+    return [(x, D) for x in X]
+
+
+def solve_linear_fast(A: sympy.Matrix, b: sympy.Matrix) -> list | None:
+    """:func:`nodeterm.engine.solve.solve_linear` on FLINT polynomials (same answers).
+
+    >>> x, y = sympy.symbols("x y")
+    >>> solve_linear_fast(sympy.Matrix([[x, 1], [1, -1]]), sympy.Matrix([1, 0]))
+    [1/(x + 1), 1/(x + 1)]
+    """
+    syms, atoms = _symbols_and_atoms(list(A) + list(b))
+    field = PolyField(syms, atoms)
+    sol = solve_fractions(field, A, b)
+    if sol is None:
+        return None
+    return [field.expr(field.reduce(x)) for x in sol]
+
+
+def solve_system_fast(system):
+    """Solve a System and derive every quantity on FLINT polynomials.
+
+    Mirrors :func:`nodeterm.engine.solve.solve_system` step for step (same results), but
+    keeps every quantity as a fraction over the shared determinant until one final GCD.
+
+    Raises:
+        Unsupported: when something is outside the polynomial path (the caller falls back).
+        SolveError: when the equations are singular.
+    """
+    from .solve import Solution, diagnose_singular
+    from .system import _Context
+
+    circuit = system.circuit
+    m = system.matrix()
+    if len(m.rows) != len(m.cols):
+        raise diagnose_singular(system, m)
+    ctx = _Context(circuit, set(system.needed))
+    ref = circuit.reference
+    parts_exprs = []
+    for p in circuit.parts:
+        if p.branch(ref) is None:
+            parts_exprs.append(p.current(ctx, None))
+            parts_exprs += [cur for _, cur in p.kcl_terms(ctx)]
+    pvals = {param(n): v for n, v in system.values.items()}
+    exprs = (list(m.A) + list(m.b) + list(system.eliminated.values()) + parts_exprs
+             + list(pvals.values()) + [f.expr for f in circuit.find.values()])
+    syms, atoms = _symbols_and_atoms(exprs)
+    field = PolyField(syms | {s}, atoms)
+    sol = solve_fractions(field, m.A, m.b)
+    if sol is None:
+        raise diagnose_singular(system, m)
+    values = dict(zip(system.reduced_unknowns, sol))
+    for sym, expr in system.eliminated.items():
+        values[sym] = field.ev(expr, values)
+    voltages = {ref: (field.zero, field.one)}
+    for n in circuit.nodes:
+        if n != ref:
+            voltages[n] = values[V(n)]
+    env = {**{V(n): v for n, v in voltages.items() if n != ref}, **values}
+    penv = {k: field.ev(v, env) for k, v in pvals.items()}
+    env_all = {**env, **penv}
+
+    currents: dict[str, tuple] = {}
+    # Currents leaving each node, summed only where the source peel below needs them (sums of
+    # fractions with different denominators cost a GCD each).
+    leaving_terms: dict[str, list[tuple]] = {n: [] for n in circuit.nodes}
+    unresolved: dict[str, tuple[str, str]] = {}
+    kcl_parts = []
+    for p in circuit.parts:
+        br = p.branch(ref)
+        if br is None:
+            currents[p.id] = field.ev(p.current(ctx, None), env_all)
+            kcl_parts.append(p)
+        elif p.id in system.needed:
+            x = values[I(p.id)]
+            currents[p.id] = x
+            leaving_terms[br[0]].append(x)
+            leaving_terms[br[1]].append(field.neg(x))
+        else:
+            unresolved[p.id] = br
+    if unresolved:
+        for p in kcl_parts:
+            for node, cur in p.kcl_terms(ctx):
+                leaving_terms[node].append(field.ev(cur, env_all))
+
+    def leaving(node: str) -> tuple:
+        total = (field.zero, field.one)
+        for term in leaving_terms[node]:
+            total = field.add(total, term)
+        leaving_terms[node] = [total]
+        return total
+
+    progress = True
+    while unresolved and progress:  # peel the source forest from its leaves (as solve_system)
+        progress = False
+        for node in circuit.nodes:
+            if node == ref:
+                continue
+            incident = [pid for pid, (a, b) in unresolved.items() if node in (a, b)]
+            if len(incident) != 1:
+                continue
+            pid = incident[0]
+            a, b = unresolved.pop(pid)
+            x = field.neg(leaving(node)) if node == a else leaving(node)
+            currents[pid] = x
+            leaving_terms[a].append(x)
+            leaving_terms[b].append(field.neg(x))
+            progress = True
+    if unresolved:
+        raise Unsupported("source currents not determined")
+    cenv = {I(pid): v for pid, v in currents.items()}
+    try:
+        find = {name: field.ev(item.expr, {**env, **cenv, **penv}) for name, item in circuit.find.items()}
+    except ZeroDivisionError:
+        raise Unsupported("a [find] quantity divides by zero") from None
+
+    results = {}
+    for group, mapping in (("v", voltages), ("i", {p.id: currents[p.id] for p in circuit.parts}), ("f", find)):
+        results[group] = {k: field.result(frac) for k, frac in mapping.items()}
+    reactive = False
+    for group in results.values():  # a large result is reduced only if it might depend on s
+        for k, value in group.items():
+            if isinstance(value, LargeExpr):
+                num, den = value._frac
+                dep = field.depends_on_s((num, den)) and value.depends_on_s()
+            else:
+                dep = value.has(s)
+            if dep:
+                reactive = True
+                break
+        if reactive:
+            break
+    return Solution(results["v"], results["i"], results["f"], reactive, dict(system.values))
