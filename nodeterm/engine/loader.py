@@ -312,7 +312,7 @@ class _Loader:
                                  hint=f'write {pid} = {{ kind = "resistor", nodes = ["a", "b"], value = "1k" }}',
                                  line=line)
             kind = raw.get("kind")
-            if kind not in KINDS:
+            if not isinstance(kind, str) or kind not in KINDS:  # kind = [] is not hashable
                 raise self.error(f"part {pid}: unknown kind {kind!r}" if kind is not None
                                  else f"part {pid} has no kind",
                                  hint="kinds: " + ", ".join(KINDS), line=line)
