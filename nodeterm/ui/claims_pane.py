@@ -56,8 +56,10 @@ class ClaimsPane(Vertical):
         self.query_one("#claim-error", Static).update(text)
 
     def accepted(self) -> None:
+        """The claim is being checked: clear the box and give the keys back (6 returns to the box)."""
         self.query_one("#claim-input", Input).value = ""
         self.show_error("")
+        self.query_one("#claims-scroll").focus()
 
     def show_verdicts(self, lines: list[str]) -> None:
         self.query_one("#claims-text", Static).update("\n".join(lines) if lines else "(no claims yet)")

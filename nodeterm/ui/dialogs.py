@@ -104,7 +104,8 @@ class ExportScreen(ModalScreen[tuple[str, str] | None]):
             yield Select([(f, f) for f in self.formats], value=self.formats[0], allow_blank=False,
                          id="export-format")
             yield Input(value=self._default(self.formats[0]), id="path-input")
-            yield Static("Up/down on the format, Tab to the path, Enter writes, Esc cancels", markup=False)
+            yield Static("Shift+Tab: format (Enter opens the list). Enter on the path writes. Esc cancels.",
+                         markup=False)
             yield Static("", id="path-error", markup=False)
 
     def on_mount(self) -> None:

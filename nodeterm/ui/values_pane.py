@@ -14,7 +14,7 @@ from textual.message import Message
 from textual.widgets import Input, Label, OptionList, Static
 from textual.widgets.option_list import Option
 
-from ..present.format import expr_text
+from ..present.format import value_text
 from .render import MARK
 from .safety import guarded
 
@@ -72,7 +72,7 @@ class ValuesPane(Vertical):
         for name, prm in params.items():
             written = prm.text if prm.value is not None else "-"
             now = system.values.get(name)
-            state = f"now {expr_text(now)}" if now is not None else "now a symbol"
+            state = f"now {value_text(now)}" if now is not None else "now a symbol"
             self.rows[name] = f"{name.ljust(width)}  file: {written.ljust(wfile)}  {state}"
             lst.add_option(Option(Content("  " + self.rows[name]), id=name))
         if not params:
@@ -128,5 +128,7 @@ class ValuesPane(Vertical):
         self.query_one("#value-error", Static).update(text)
 
     def applied(self) -> None:
+        """The value was substituted: clear the box and give the keys back to the list."""
         self.query_one("#value-input", Input).value = ""
         self.show_error("")
+        self.query_one("#param-list", OptionList).focus()

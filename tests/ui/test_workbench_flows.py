@@ -84,7 +84,8 @@ async def test_substitute_bad_value_and_undo(kiln):
         assert app.system.values == {"Rin": sympy.Integer(4700)}
         assert text_of(app, "#value-error") == ""
         assert "Substitute Rin" in text_of(app, "#step-head")   # the new step is shown
-        await pilot.press("escape", "u")
+        assert app.focused.id == "param-list"   # keys work again after applying
+        await pilot.press("u")
         await settle(pilot, app)
         assert app.system.values == {}
         await pilot.press("u")   # nothing left: a message, no change
@@ -247,13 +248,13 @@ async def test_claims_typed_and_from_file(kiln):
                 break
         text = text_of(app, "#claims-text")
         assert "typed1 [FAILS]" in text and "R2" in text
-        await pilot.press(*"gain = -Rf/Rin", "enter")   # a result claim under a [find] name
+        await pilot.press("6", *"gain = -Rf/Rin", "enter")   # a result claim under a [find] name
         for _ in range(100):
             await pilot.pause(0.05)
             if "6 claims" in text_of(app, "#claims-text"):
                 break
         assert "6 claims: 5 hold, 1 fails" in text_of(app, "#claims-text")
-        await pilot.press(*"V_out", "enter")   # no '=': explained inline
+        await pilot.press("6", *"V_out", "enter")   # no '=': explained inline
         assert text_of(app, "#claim-error").startswith("! a claim needs '='")
 
 
