@@ -43,6 +43,9 @@ def parse_sets(items: list[str] | None) -> dict[str, str]:
 def prepare(args) -> "object":
     """Load, build and substitute as the common options ask."""
     circuit = load_circuit(args.file)
+    if not getattr(args, "numeric", False):
+        from .engine.numeric import check_exact_size
+        check_exact_size(circuit)
     system = build_system(circuit)
     sets = parse_sets(getattr(args, "set", None))
     if sets:  # --set first: its values win over the file's when --known is given too
@@ -67,12 +70,32 @@ def add_common(p: argparse.ArgumentParser) -> None:
 def cmd_solve(args) -> int:
     from .present.jsonout import to_json
     from .present.text import report
+    if args.numeric:
+        return _solve_numeric(args)
     system = prepare(args)
     solution = system.solve()
     if args.json:
         print(to_json(system, solution))
     else:
         sys.stdout.write(report(system, solution, ascii_only=args.ascii))
+    return 0
+
+
+def _solve_numeric(args) -> int:
+    """``solve --numeric``: double precision from the compiled circuit (nodeterm.engine.numeric)."""
+    import math
+
+    from .engine.numeric import EXACT_NODE_LIMIT, NumericModel, parse_values
+    from .present.numeric import numeric_json, numeric_report
+    circuit = load_circuit(args.file)
+    values = parse_values(circuit, parse_sets(args.set))
+    s_value = 0 if args.frequency is None else complex(0, 2 * math.pi * args.frequency)
+    solution = NumericModel(circuit, values).solve(s_value)
+    if args.json:
+        system = prepare(args) if len(circuit.nodes) <= EXACT_NODE_LIMIT else None
+        print(numeric_json(circuit, solution, system))
+    else:
+        sys.stdout.write(numeric_report(circuit, solution, ascii_only=args.ascii))
     return 0
 
 
@@ -86,6 +109,11 @@ def build_parser() -> argparse.ArgumentParser:
     add_common(p)
     p.add_argument("--json", action="store_true", help="print one JSON object (see docs/json-contract.md)")
     p.add_argument("--ascii", action="store_true", help="7-bit output only")
+    p.add_argument("--numeric", action="store_true",
+                   help="double precision instead of exact fractions (every parameter needs a value); "
+                        "for big circuits")
+    p.add_argument("--frequency", type=float, metavar="HZ",
+                   help="with --numeric: solve at s = j*2*pi*HZ instead of DC")
     for extend in _EXTENSIONS:
         extend(sub)
     return parser
