@@ -32,8 +32,8 @@ CORPUS = Path(__file__).parent / "corpus"
 HANG_GUARD = 120  # seconds; a refusal takes about two (interpreter and SymPy start-up)
 MARKER = "nodeterm_was_run"
 
-# file: (command, exit status, fragment of the message)
-CASES: dict[str, tuple[str, int, str]] = {
+# file: (command, exit status, fragment of the message, or a tuple of acceptable fragments)
+CASES: dict[str, tuple[str, int, str | tuple[str, ...]]] = {
     # code injection: rejected by the expression parser, never run
     "inject_import_call.toml": ("solve", 2, "part R2 value: unexpected character \"'\""),
     "inject_dunder_name.toml": ("solve", 2, "name '__import__' is not allowed"),
@@ -73,7 +73,8 @@ CASES: dict[str, tuple[str, int, str]] = {
     "expression_too_long.toml": ("solve", 2, f"characters long (limit {MAX_LENGTH})"),
     "toml_arrays_10000_deep.toml": ("solve", 2, "TOML nesting is too deep"),
     "toml_inline_tables_5000_deep.toml": ("solve", 2, "TOML nesting is too deep"),
-    "toml_dotted_table_5000_deep.toml": ("solve", 2, "unknown top-level key 't'"),
+    # the pure-Python TOML parser builds dotted tables in a loop, its compiled build recurses: either refusal
+    "toml_dotted_table_5000_deep.toml": ("solve", 2, ("unknown top-level key 't'", "TOML nesting is too deep")),
     "long_bad_part_id.toml": ("solve", 2, "is not valid"),
     # encodings and empty files
     "non_utf8_byte.toml": ("solve", 2, "the file is not UTF-8 text (byte 0xff)"),
@@ -144,11 +145,12 @@ def results(workdir, generated) -> dict[str, subprocess.CompletedProcess]:
         return {name: f.result() for name, f in futures.items()}
 
 
-def _check_refusal(proc: subprocess.CompletedProcess, status: int, fragment: str, file: str) -> None:
+def _check_refusal(proc: subprocess.CompletedProcess, status: int, fragment, file: str) -> None:
     out = proc.stderr + proc.stdout
     assert "Traceback" not in out, out[-2000:]
     assert proc.returncode == status, (proc.returncode, out[-2000:])
-    assert fragment in out, f"expected {fragment!r} in:\n{out[-2000:]}"
+    fragments = (fragment,) if isinstance(fragment, str) else fragment
+    assert any(f in out for f in fragments), f"expected {fragment!r} in:\n{out[-2000:]}"
     assert file in out, f"the message must name the file {file}:\n{out[-2000:]}"
     message = proc.stderr.strip()
     if proc.stderr and "\n" not in message:  # one line, readable even for a huge echoed name
