@@ -29,17 +29,22 @@ from .format import eng, expr_text
 _PLOT_LOCK = threading.Lock()
 
 
+def _real(x: float, unit: str, ascii_only: bool) -> str:
+    # A dimensionless number (Q, a ratio) in plain notation: "707.1 m" would read as metres.
+    return eng(x, unit, ascii_only=ascii_only) if unit else f"{x:.4g}"
+
+
 def _num(value, unit: str = "", ascii_only: bool = False) -> str:
-    """A number (or exact expression) for people: engineering notation when it is a number."""
+    """A number (or exact expression) for people: engineering notation when it has a unit."""
     if value is None:
         return "-"
     if isinstance(value, (int, float, np.floating)):
-        return eng(float(value), unit, ascii_only=ascii_only)
+        return _real(float(value), unit, ascii_only)
     e = sympy.sympify(value)
     if e in (sympy.zoo, sympy.oo):
         return "infinite"
     if e.is_number and e.is_real:
-        return eng(float(e), unit, ascii_only=ascii_only)
+        return _real(float(e), unit, ascii_only)
     if e.is_number:
         z = complex(e)
         return f"{z.real:.4g}{z.imag:+.4g}j"
