@@ -83,7 +83,7 @@ class PolyField:
         self.one = self.ctx.constant(1)
         self.zero = self.ctx.constant(0)
         self.s_index = self.index.get(s)
-        self._rest = None
+        self._text_cache: list = []
 
     # --- arithmetic on fractions -----------------------------------------------------
     def const(self, value) -> tuple:
@@ -187,9 +187,37 @@ class PolyField:
             terms.append(sympy.Mul(sympy.Integer(int(c)), *factors))
         return sympy.Add(*terms)
 
+    def _s_groups(self, p) -> list[tuple[int, object]]:
+        """[(k, coefficient of s**k)] with the coefficients split off inside FLINT, k ascending."""
+        si = self.s_index
+        if si is None or p.degrees()[si] == 0:
+            return [(0, p)]
+        name, sgen = self.names[si], self.gens[si]
+        groups = []
+        k = 0
+        while not p.is_zero():
+            q = p.subs({name: 0})
+            if not q.is_zero():
+                groups.append((k, q))
+                p = p - q
+            p = p / sgen
+            k += 1
+        return groups
+
+    def collected_expr(self, p) -> sympy.Expr:
+        """``collect(expand(p), s)`` built directly, group by group."""
+        pieces = []
+        for k, q in self._s_groups(p):
+            e = self.poly_expr(q)
+            pieces.append(e if k == 0 else s**k * e)
+        return sympy.Add(*pieces)
+
     def expr(self, a: tuple) -> sympy.Expr:
         """The canonical SymPy form of a reduced fraction (what ``canonical`` would give)."""
-        from .solve import canonical, tidy_fraction
+        from .solve import FACTOR_LIMIT, canonical, tidy_fraction
+        if not self.atoms and len(a[0]) + len(a[1]) > FACTOR_LIMIT:  # no factoring: collect in s
+            num, den = self.collected_expr(a[0]), self.collected_expr(a[1])
+            return num / den if den != 1 else num
         value = self.poly_expr(a[0]) / self.poly_expr(a[1])  # what sympy.cancel returns
         if self.atoms:  # radicals and pi: let SymPy decide the form
             return canonical(value)
@@ -220,20 +248,19 @@ class PolyField:
         The coefficient of each power of s is split off inside FLINT (evaluate at s = 0, subtract,
         divide by s), so even a polynomial of 100,000 terms is printed at C speed.
         """
+        for q, text in self._text_cache:  # results share their denominator: print it once
+            if q == p:
+                return text
+        text = self._poly_text(p)
+        if len(p) > 1000:
+            self._text_cache = (self._text_cache + [(p, text)])[-4:]
+        return text
+
+    def _poly_text(self, p) -> str:
         si = self.s_index
         if si is None or p.degrees()[si] == 0:
             return _flint_text(p)
-        name = self.names[si]
-        sgen = self.gens[si]
-        groups = []
-        k = 0
-        while not p.is_zero():
-            q = p.subs({name: 0})
-            if not q.is_zero():
-                groups.append((k, q))
-                p = p - q
-            p = p / sgen
-            k += 1
+        groups = self._s_groups(p)
         pieces = []
         for k, q in reversed(groups):
             text = _flint_text(q)

@@ -72,6 +72,8 @@ def equation_text(e, ascii_only: bool = False) -> str:
 
 
 def is_numeric(expr) -> bool:
+    if getattr(expr, "is_large", False):  # a large lazy result (engine.fastsolve.LargeExpr): never a number
+        return False
     expr = sympy.sympify(expr)
     return bool(expr.is_number) and not expr.has(sympy.zoo, sympy.nan)
 

@@ -48,7 +48,7 @@ def voltage_caution(volts: float, what: str, part: str = "") -> Warning | None:
 
 
 def _number(expr, subs: dict) -> float | None:
-    if expr is None:
+    if expr is None or getattr(expr, "is_large", False):  # a large lazy result is never a number
         return None
     expr = sympy.sympify(expr).xreplace(subs)
     if expr.is_number and expr.is_extended_real:
