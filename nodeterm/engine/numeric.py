@@ -244,21 +244,23 @@ class NumericModel:
         ref = self.reference
         volts = {ref: 0.0}
         volts.update(zip(self.nodes, x[:len(self.nodes)].tolist()))
-        env = {sym: x[i] for sym, i in self.unknown_symbols.items()} if len(self._passive_ids) < len(
-            self.circuit.parts) or self.circuit.find else {}
+        generic = len(self._passive_ids) + len(self.branch_index) < len(self.circuit.parts)
+        env = {sym: x[i] for sym, i in self.unknown_symbols.items()} if generic or self.circuit.find else {}
         if coef is None:
             coef = self.coefficient_values(s_value)
         xv = np.append(x[:len(self.nodes)], 0.0)  # index -1: the reference
         pa, pb, pk = self._passive.T
         passive = dict(zip(self._passive_ids, ((xv[pa] - xv[pb]) * coef[pk]).tolist()))
+        branch = {pid: x[j] for pid, j in self.branch_index.items()}
         currents = {}
         for p in self.circuit.parts:
-            if p.id in self.branch_index:
-                currents[p.id] = x[self.branch_index[p.id]]
-            elif p.id in passive:
-                currents[p.id] = passive[p.id]
-            else:
-                currents[p.id] = self._evaluate(p.current(self._ctx, None), env, s_value)
+            pid = p.id
+            value = passive.get(pid)
+            if value is None:
+                value = branch.get(pid)
+            if value is None:
+                value = self._evaluate(p.current(self._ctx, None), env, s_value)
+            currents[pid] = value
         find = {}
         if self.circuit.find:
             cenv = {**env, **{I(pid): v for pid, v in currents.items()}}
