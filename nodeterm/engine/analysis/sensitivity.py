@@ -47,7 +47,9 @@ def scalar_quantities(circuit, solution=None) -> dict[str, sympy.Expr]:
             out[name] = value
             continue
         tf = transfer_function(value, name)
-        if tf.dc_gain.is_finite and tf.dc_gain != 0:
+        # a symbolic DC gain such as (Rf + Rg)/Rg has is_finite None: only a pole at the origin (zoo),
+        # 0/0 (nan) or a zero gain is left out
+        if tf.dc_gain.is_finite is not False and tf.dc_gain is not sympy.nan and tf.dc_gain != 0:
             out[f"{name}.dc"] = tf.dc_gain
         counts = {1: 0, 2: 0}
         for sec in tf.sections:
