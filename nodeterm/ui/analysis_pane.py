@@ -1,4 +1,10 @@
-"""The analysis pane: transfer functions in s, op-amp limits, the real op-amp model, sensitivities, cautions.
+"""The analysis pane: frequency response plots, Monte Carlo, then the analyses as text.
+
+From the top: the keys of the pane; the magnitude and phase of one [find] quantity in s
+(:class:`~.response_pane.ResponseView`, ``g`` the next quantity, ``w`` the CSV); the
+tolerance run (:class:`~.tolerance_view.ToleranceView`, ``m`` runs, ``c`` cancels); and
+the text of every analysis that applies (:func:`analysis_lines`: transfer functions,
+limits, real op-amp model, sensitivities, cautions).
 
 :func:`analysis_lines` calls the engine's analyses and the analysis presenters,
 each section on its own so that one failing analysis is reported in place and
@@ -11,7 +17,12 @@ from __future__ import annotations
 from textual.containers import VerticalScroll
 from textual.widgets import Static
 
+from .response_pane import ResponseView
 from .safety import describe, logger
+from .tolerance_view import ToleranceView
+
+KEYS_LINE = ("g next [find] plot  w write CSV  m Monte Carlo  c cancel  "
+             "PgUp/PgDn scroll")
 
 
 def _section(title: str, make) -> list[str]:
@@ -78,14 +89,52 @@ def analysis_lines(system, solution) -> list[str]:
 
 
 class AnalysisPane(VerticalScroll):
-    """Shows the analyses of the current system (computed on request)."""
+    """Response plots and the tolerance run on top, the text of the analyses below (computed on request)."""
 
     DEFAULT_CSS = """
     AnalysisPane > Static { width: 100%; }
+    #analysis-keys { text-style: reverse; }
+    #analysis-text { margin-top: 1; }
     """
 
     def compose(self):
+        yield Static(KEYS_LINE, id="analysis-keys", markup=False)
+        yield ResponseView(id="response-view")
+        yield ToleranceView(id="tolerance-view")
         yield Static("(open this pane or press a to run the analyses)", id="analysis-text", markup=False)
 
     def show_lines(self, lines: list[str]) -> None:
         self.query_one("#analysis-text", Static).update("\n".join(lines))
+
+    def show_system(self, system, solution) -> None:
+        """Start the response plots of a solved system and get the tolerance section ready for it."""
+        self.query_one(ResponseView).show_system(system, solution)
+        self.query_one(ToleranceView).show_system(system)
+
+    def next_quantity(self) -> str | None:
+        """Plot the next [find] quantity in s (scrolled into view)."""
+        name = self.query_one(ResponseView).next_quantity()
+        self.scroll_to_widget(self.query_one(ResponseView), top=True)
+        return name
+
+    def write_csv(self, circuit_path: str | None) -> None:
+        """Ask for a path and write the response CSV."""
+        self.query_one(ResponseView).ask_csv_path(circuit_path)
+
+    def run_monte_carlo(self, system, samples: int | None = None, seed: int | None = None) -> bool:
+        """Start a Monte Carlo run on ``system`` (scrolled into view); False when there is nothing to vary."""
+        view = self.query_one(ToleranceView)
+        view.show_system(system)
+        kwargs = {k: v for k, v in (("samples", samples), ("seed", seed)) if v is not None}
+        started = view.run(**kwargs)
+        self.scroll_to_widget(view, top=True)
+        return started
+
+    def cancel_running(self) -> bool:
+        """Cancel a running Monte Carlo; True when one was running."""
+        return self.query_one(ToleranceView).cancel()
+
+    @property
+    def running(self) -> bool:
+        """True while a Monte Carlo run is going."""
+        return self.query_one(ToleranceView).running

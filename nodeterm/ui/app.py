@@ -265,6 +265,7 @@ class Workbench(App):
             pane.show_lines(["waiting for the solve to finish..."])
             return
         self.analysed = self.system
+        pane.show_system(self.system, self.solution)
         pane.show_lines(["analysing... (the pane stays usable; c cancels)"])
         self.busy_since, self.busy_what = time.monotonic(), "analysing"
         self._analysis_worker(self.system, self.solution)
@@ -461,6 +462,9 @@ class Workbench(App):
         self.cancel_solve()
 
     def cancel_solve(self) -> bool:
+        if self.query_one(AnalysisPane).cancel_running():
+            self.notify("Monte Carlo cancelled", timeout=3)
+            return True
         if self.busy_since is None:
             return False
         self.workers.cancel_group(self, "solve")
@@ -487,8 +491,26 @@ class Workbench(App):
                 self.query_one("#claims-scroll").focus()
             else:
                 self.query_one("#param-list").focus()
-        elif self.busy_since is not None:
+        elif self.busy_since is not None or self.query_one(AnalysisPane).running:
             self.cancel_solve()
+
+    @guarded
+    def action_response_next(self) -> None:
+        self.show_pane("analysis")
+        if self.query_one(AnalysisPane).next_quantity() is None:
+            self.notify("no frequency response yet: it needs a [find] quantity in s and a finished solve",
+                        timeout=4)
+
+    @guarded
+    def action_write_response(self) -> None:
+        self.show_pane("analysis")
+        self.query_one(AnalysisPane).write_csv(self.session.path)
+
+    @guarded
+    def action_monte_carlo(self) -> None:
+        self.show_pane("analysis")
+        if self.system is not None:
+            self.query_one(AnalysisPane).run_monte_carlo(self.system)
 
     @guarded
     def action_open_file(self) -> None:

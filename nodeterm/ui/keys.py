@@ -28,6 +28,9 @@ KEYS: tuple[Key, ...] = (
     Key("5", "pane('results')", "Show the results: voltages, currents, [find]"),
     Key("6", "pane('claims')", "Show the claims: type your own, read the verdicts"),
     Key("7,a", "analyse", "Show the analyses: transfer function, limits, real op-amp"),
+    Key("g", "response_next", "Frequency response: plot the next [find] quantity in s"),
+    Key("w", "write_response", "Frequency response: write it as CSV (asks where)"),
+    Key("m", "monte_carlo", "Tolerances: run Monte Carlo and worst case (c cancels)"),
     Key("n", "next_step", "Next step of the procedure", "next"),
     Key("b", "previous_step", "Back one step of the procedure", "back"),
     Key("v", "type_value", "Type a value for a parameter", "value"),
@@ -35,7 +38,7 @@ KEYS: tuple[Key, ...] = (
     Key("u", "undo", "Undo the last substitution", "undo"),
     Key("f", "toggle_form", "Equation form: one line or 2-D"),
     Key("s", "solve", "Solve again"),
-    Key("c", "cancel", "Cancel a running solve"),
+    Key("c", "cancel", "Cancel a running solve or Monte Carlo"),
     Key("o", "open_file", "Open another circuit file"),
     Key("r", "reload", "Reload the circuit file from disk"),
     Key("e", "export", "Export the equation set to a file", "export"),
@@ -57,8 +60,11 @@ Panes (keys 1-7; Tab/Shift+Tab moves between the widgets of a pane):
              [find] quantities; exact, with engineering values when numeric
   6 Claims   type a claim (an equation, or NAME = value for a [find] name), Enter
              checks it against the node equations; the file's [hand] claims too
-  7 Analysis transfer functions in s (poles, zeros, w0, Q), op-amp output limits,
-             the real op-amp model against the ideal, sensitivities, cautions
+  7 Analysis magnitude (dB) and phase plots of a [find] quantity in s with its -3 dB
+             band (g next quantity, w CSV; k first if values are missing); m runs
+             Monte Carlo over the tolerances (progress bar, c cancels): min, max,
+             mean, std, worst case, histogram; then transfer functions in s (poles,
+             zeros, w0, Q), op-amp limits, real op-amp model, sensitivities, cautions
 
 The file is reloaded when it changes on disk; if it no longer loads, its error is
 shown on the second line and the last good version stays on screen.
