@@ -267,9 +267,9 @@ def cmd_tolerance(args) -> int:
         return 0
     quantities = scalar_quantities(circuit)
     progress = None
-    if sys.stderr.isatty():
+    if sys.stderr.isatty():  # a person watching: one line, rewritten in place; nothing in pipes and logs
         def progress(done: int, total: int) -> None:
-            sys.stderr.write(f"\rMonte Carlo: {done}/{total} samples")
+            sys.stderr.write(f"\rMonte Carlo: {100 * done // total:3d} % ({done}/{total} samples)")
             if done == total:
                 sys.stderr.write("\n")
             sys.stderr.flush()
