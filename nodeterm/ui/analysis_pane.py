@@ -92,6 +92,7 @@ class AnalysisPane(VerticalScroll):
     """Response plots and the tolerance run on top, the text of the analyses below (computed on request)."""
 
     DEFAULT_CSS = """
+    AnalysisPane { overflow-y: scroll; }  /* the scrollbar always there: the plots keep their width */
     AnalysisPane > Static { width: 100%; }
     #analysis-keys { text-style: reverse; }
     #analysis-text { margin-top: 1; }
@@ -116,6 +117,10 @@ class AnalysisPane(VerticalScroll):
         name = self.query_one(ResponseView).next_quantity()
         self.scroll_to_widget(self.query_one(ResponseView), top=True)
         return name
+
+    def quantity_count(self) -> int:
+        """How many [find] quantities in s there are to plot."""
+        return len(self.query_one(ResponseView).items)
 
     def write_csv(self, circuit_path: str | None) -> None:
         """Ask for a path and write the response CSV."""

@@ -103,7 +103,8 @@ class Workbench(App):
             logger().info("%s: %s", doing, msg)
         else:
             logger().error("%s failed", doing, exc_info=exc)
-        self.notify(msg, title=f"could not {doing}" if doing else "error", severity="error", timeout=10)
+        self.notify(msg, title=f"could not {doing}" if doing else "error", severity="error", timeout=10,
+                    markup=False)  # engine messages name tables such as [find]
 
     def _set_problem(self, text: str) -> None:
         problem = self.query_one("#problem", Static)
@@ -148,7 +149,7 @@ class Workbench(App):
             raise
         self._set_problem("")
         for note in dropped:
-            self.notify(note, severity="warning", timeout=8)
+            self.notify(note, severity="warning", timeout=8, markup=False)
         self.system = self.session.system
         self.notify(f"reloaded {os.path.basename(self.session.path)}", timeout=3)
 
@@ -497,9 +498,11 @@ class Workbench(App):
     @guarded
     def action_response_next(self) -> None:
         self.show_pane("analysis")
-        if self.query_one(AnalysisPane).next_quantity() is None:
-            self.notify("no frequency response yet: it needs a [find] quantity in s and a finished solve",
-                        timeout=4)
+        pane = self.query_one(AnalysisPane)
+        if pane.next_quantity() is None:
+            self.notify("no frequency response to show (yet): the analysis pane says why", timeout=4)
+        elif pane.quantity_count() == 1:
+            self.notify("only one quantity of the find table depends on s", timeout=3)
 
     @guarded
     def action_write_response(self) -> None:

@@ -83,6 +83,8 @@ class ResponseView(Vertical):
         self.items: list[Response] = []
         self.index = 0
         self.system = None          # the system the items belong to
+        self.computing = False
+        self.pending_csv: tuple | None = None  # a CSV asked for while computing: (circuit path,)
         self._drawn: tuple | None = None
 
     def compose(self):
@@ -95,6 +97,7 @@ class ResponseView(Vertical):
         if system is self.system:
             return
         self.system, self.items, self.index, self._drawn = system, [], 0, None
+        self.computing = True
         self._head("Frequency response: computing...")
         self.query_one("#response-plot", Static).update("")
         self._worker(system, solution)
@@ -113,12 +116,16 @@ class ResponseView(Vertical):
     def _computed(self, system, items, error) -> None:
         if system is not self.system:
             return  # for an older system
+        self.computing = False
+        pending, self.pending_csv = self.pending_csv, None
         if error is not None:
             self._head(f"Frequency response: could not compute ({describe(error)})")
             self.app.report_error(error, "compute the frequency response")
             return
         self.items = items
         self.redraw()
+        if pending is not None:
+            self.ask_csv_path(*pending)
 
     # --- showing -----------------------------------------------------------------
     def _head(self, text: str) -> None:
@@ -185,7 +192,8 @@ class ResponseView(Vertical):
         numeric = [r for r in self.items if r.response is not None]
         if not numeric:
             raise InputError("nothing to write: no [find] quantity has a numeric frequency response yet",
-                             hint="substitute the values first (k), then write the CSV")
+                             hint="substitute the values first (k), then write the CSV",
+                             file="frequency response")
         lo, hi = common_range(numeric)
         points = max(len(r.response.freqs) for r in numeric)
         return response_csv([frequency_response(r.tf, lo, hi, points) for r in numeric])
@@ -203,12 +211,17 @@ class ResponseView(Vertical):
         except InputError as err:
             self.app.report_error(err, "write the CSV")
             return False
-        self.app.notify(f"wrote {path}", timeout=5)
+        self.app.notify(f"wrote {path}", timeout=5, markup=False)
         return True
 
     def ask_csv_path(self, circuit_path: str | None) -> None:
         """Ask where to write the CSV; ask again before replacing a file."""
         from .dialogs import ConfirmScreen, PathScreen
+        if self.computing or self.system is None:  # asked before the responses are known
+            self.pending_csv = (circuit_path,)
+            self.app.notify("computing the frequency response; the CSV dialog opens when it is ready",
+                            timeout=4)
+            return
         if not any(r.response is not None for r in self.items):
             self.write_csv(self.default_csv_path(circuit_path))  # reports why there is nothing to write
             return

@@ -86,6 +86,7 @@ class ToleranceView(Vertical):
         self.study: Study | None = None
         self.running = False
         self.last_progress: tuple[int, int] | None = None
+        self.shown: tuple | None = None  # (samples, seed, width) of the results on screen
 
     def compose(self):
         yield Static("Tolerances: open this pane after a solve", id="tolerance-head", markup=False)
@@ -110,8 +111,8 @@ class ToleranceView(Vertical):
                        "parameters with a tolerance: " + ", ".join(names))
         else:
             self._show("Monte Carlo and worst case: no parameter has a tolerance",
-                       'write one as R1 = { value = "10k", tolerance = "1%" } '
-                       '(distribution = "normal" optional);\ncircuits/soil_moisture_probe.toml is a demo')
+                       'give one in the file: R1 = { value = "10k", tolerance = "1%" }\n'
+                       "(circuits/soil_moisture_probe.toml is a demo with tolerances)")
 
     # --- running -----------------------------------------------------------------
     def run(self, samples: int = SAMPLES, seed: int = SEED) -> bool:
@@ -177,8 +178,15 @@ class ToleranceView(Vertical):
             self._show(f"Monte Carlo failed: {describe(error)}")
             self.app.report_error(error, "run Monte Carlo")
             return
-        self.study = study
+        self.study, self.shown = study, (samples, seed, self.size.width)
         self._show(*self._texts(study, samples, seed))
+
+    def on_resize(self) -> None:
+        """Draw the histograms again at the new width."""
+        if self.study is not None and self.shown and self.shown[2] != self.size.width:
+            samples, seed, _ = self.shown
+            self.shown = (samples, seed, self.size.width)
+            self._show(*self._texts(self.study, samples, seed))
 
     def _texts(self, study: Study, samples: int, seed: int) -> tuple[str, str, str]:
         from ..present.analysis import histogram_plot, tolerance_lines

@@ -161,6 +161,20 @@ async def test_csv_written_and_replaced_only_after_asking(tmp_path):
         assert read_csv(target)[0][0] == "frequency_hz"
 
 
+async def test_csv_asked_for_before_the_response_is_computed_opens_when_ready(tmp_path):
+    app = Workbench(VIBRATION, poll=False)
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(pilot, app)
+        await pilot.press("k")
+        await settle(pilot, app)
+        await pilot.press("w")  # the pane opens and starts computing; the dialog follows
+        assert await wait_for(pilot, lambda: isinstance(app.screen, PathScreen))
+        app.screen.query_one("#path-input").value = str(tmp_path / "early.csv")
+        await pilot.press("enter")
+        await pilot.pause()
+        assert read_csv(tmp_path / "early.csv")[0] == ["frequency_hz", "H_magnitude_db", "H_phase_deg"]
+
+
 async def test_csv_without_values_says_why(tmp_path, monkeypatch):
     monkeypatch.chdir(tmp_path)
     app = Workbench(VIBRATION, poll=False)
