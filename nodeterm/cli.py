@@ -8,7 +8,10 @@ Exit status: 0 success, 1 a check found a wrong claim, 2 bad input.
 from __future__ import annotations
 
 import argparse
+import contextlib
+import signal
 import sys
+import threading
 from importlib import resources
 
 from .engine import InputError, build_system, load_circuit
@@ -59,11 +62,41 @@ def prepare(args) -> "object":
     return system
 
 
+DEFAULT_TIME_LIMIT = 60.0
+
+
+class OutOfTime(Exception):
+    """The command ran past its time limit (--time-limit)."""
+
+
+@contextlib.contextmanager
+def time_limit(seconds: float | None):
+    """Stop the work after ``seconds`` with :class:`OutOfTime` (main thread, POSIX only)."""
+    usable = (seconds and seconds > 0 and hasattr(signal, "setitimer")
+              and threading.current_thread() is threading.main_thread())
+    if not usable:
+        yield
+        return
+
+    def expire(signum, frame):
+        raise OutOfTime()
+
+    previous = signal.signal(signal.SIGALRM, expire)
+    signal.setitimer(signal.ITIMER_REAL, seconds)
+    try:
+        yield
+    finally:
+        signal.setitimer(signal.ITIMER_REAL, 0)
+        signal.signal(signal.SIGALRM, previous)
+
+
 def add_common(p: argparse.ArgumentParser) -> None:
     p.add_argument("file", help="circuit file (TOML)")
     p.add_argument("--set", action="append", metavar="NAME=VALUE",
                    help="substitute a parameter value (repeatable), e.g. --set R1=10k")
     p.add_argument("--known", action="store_true", help="substitute every parameter that has a value in the file")
+    p.add_argument("--time-limit", type=float, default=DEFAULT_TIME_LIMIT, metavar="SECONDS",
+                   help=f"give up after this many seconds (default {DEFAULT_TIME_LIMIT:g}; 0 for no limit)")
 
 
 @command("solve")
@@ -166,7 +199,15 @@ def main(argv: list[str] | None = None) -> int:
             args = parser.parse_args(argv)
         except SystemExit as exc:  # argparse already printed its message
             return 0 if exc.code == 0 else 2
-        return COMMANDS[args.command](args)
+        limit = getattr(args, "time_limit", DEFAULT_TIME_LIMIT)
+        try:
+            with time_limit(limit):
+                return COMMANDS[args.command](args)
+        except OutOfTime:
+            print(f"nodeterm: {args.file if hasattr(args, 'file') else ''}: error: the exact work did not finish "
+                  f"within {limit:g} s; substitute values (--known, --set NAME=VALUE) to shrink the algebra, "
+                  "use --numeric, or raise --time-limit", file=sys.stderr)
+            return 2
     except InputError as err:
         print(f"nodeterm: {err}", file=sys.stderr)
         return 2

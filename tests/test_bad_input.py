@@ -244,3 +244,36 @@ def test_import_payload_is_rejected_and_never_run(tmp_path, capsys, monkeypatch)
     status, out, err = good
     assert status == 0, err
     assert sympy.Rational(json.loads(out)["node_voltages"]["out"]) == sympy.Rational(5 * 4700, 14700)
+
+
+def test_value_that_expands_to_thousands_of_terms_is_refused(tmp_path, capsys):
+    # (a+b+c)^64 is short to write but has C(66, 2) = 2145 terms expanded (binomial count, common practice).
+    from nodeterm.cli import main
+    f = tmp_path / "blowup.toml"
+    f.write_text('[parameters]\na = ""\nb = ""\nc = ""\n[parts]\n'
+                 'V1 = { kind = "vsource", nodes = ["in", "gnd"], value = "(a+b+c)^64" }\n'
+                 'R1 = { kind = "resistor", nodes = ["in", "gnd"], value = "a" }\n')
+    assert main(["solve", str(f)]) == 2
+    err = capsys.readouterr().err
+    assert f"{f}:6" in err and "more than 1000 terms" in err
+
+
+def test_time_limit_stops_long_work_with_a_message(tmp_path, capsys):
+    import time
+    from nodeterm import cli
+    f = tmp_path / "ok.toml"
+    f.write_text('[parts]\nV1 = { kind = "vsource", nodes = ["in", "gnd"], value = 1 }\n'
+                 'R1 = { kind = "resistor", nodes = ["in", "gnd"], value = 1 }\n')
+
+    def slow(args):
+        time.sleep(5)
+        return 0
+
+    cli._load_extensions()
+    original = cli.COMMANDS["solve"]
+    cli.COMMANDS["solve"] = slow
+    try:
+        assert cli.main(["solve", str(f), "--time-limit", "0.2"]) == 2
+    finally:
+        cli.COMMANDS["solve"] = original
+    assert "did not finish within 0.2 s" in capsys.readouterr().err

@@ -18,7 +18,8 @@ from pathlib import Path
 import sympy
 
 from .errors import InputError, Warning
-from .expr import MAX_EXPONENT, MAX_LITERAL_DIGITS, MAX_NUMBER_BITS, ExpressionError, parse_expression, size_bound
+from .expr import (MAX_EXPONENT, MAX_LITERAL_DIGITS, MAX_NUMBER_BITS, MAX_TERMS, ExpressionError,
+                   parse_expression, size_bound, term_bound)
 from .model import Circuit, FindItem, HandItem, Parameter
 from .parts import KINDS, Part
 from .symbols import I, V, param, s
@@ -220,6 +221,8 @@ class _Loader:
     def check_sizes(self, params: dict[str, Parameter]) -> None:
         """Refuse values whose numbers or degree, with the parameters they use, would blow up."""
         self.bounds: dict = {}
+        self.terms: dict = {}
+        self.vars: dict = {}
 
         def bound(name: str):
             sym = param(name)
@@ -229,13 +232,18 @@ class _Loader:
                 for d in sorted(deps & set(params)):
                     bound(d)
                 self.bounds[sym] = size_bound(value, self.bounds) if value is not None else (0, 0, 1, 0)
-                self.check_size(self.bounds[sym], f"parameter {name}", params[name].line)
+                self.terms[sym] = term_bound(value, self.terms) if value is not None else (1, 1)
+                self.vars[sym] = (set().union(*(self.vars[param(d)] for d in deps & set(params)))
+                                  | {n for n in deps if n not in params}) if value is not None else {name}
+                self.check_size(self.bounds[sym], f"parameter {name}", params[name].line, self.terms[sym],
+                                len(self.vars[sym]))
             return self.bounds[sym]
 
         for name in params:
             bound(name)
 
-    def check_size(self, b, what: str, line: int | None) -> None:
+    def check_size(self, b, what: str, line: int | None, terms: tuple[int, int] = (1, 1),
+                   nvars: int | None = None) -> None:
         if max(b[0], b[1]) > MAX_NUMBER_BITS:
             raise self.error(f"{what}: with the parameters it uses, its exact value would need numbers of "
                              f"more than {MAX_NUMBER_BITS} bits",
@@ -244,6 +252,14 @@ class _Loader:
             raise self.error(f"{what}: with the parameters it uses, its value has degree "
                              f"{max(b[2], b[3])} in its symbols (limit {MAX_EXPONENT})",
                              hint="check the powers in the chain of parameters", line=line)
+        if nvars is not None:  # a polynomial of degree d in v symbols has at most C(v+d, d) terms
+            cap = math.comb(nvars + max(b[2], b[3]), nvars) if nvars else 1
+            terms = tuple(min(n, cap) for n in terms)
+        if max(terms) > MAX_TERMS:
+            raise self.error(f"{what}: with the parameters it uses, its value expands to more than "
+                             f"{MAX_TERMS} terms",
+                             hint="circuit values are short; check the powers (e.g. (a+b+c)^64) in the value",
+                             line=line)
 
     def tolerance(self, raw: object, name: str, line: int | None) -> sympy.Expr | None:
         if raw is None:
@@ -347,7 +363,10 @@ class _Loader:
         for p in parts:
             for what, expr in (("value", p.value), ("gain", p.gain)):
                 if expr is not None:
-                    self.check_size(size_bound(expr, getattr(self, "bounds", {})), f"part {p.id} {what}", p.line)
+                    syms = getattr(self, "vars", {})
+                    nvars = len(set().union(*(syms.get(x, {str(x)}) for x in expr.free_symbols)))
+                    self.check_size(size_bound(expr, getattr(self, "bounds", {})), f"part {p.id} {what}", p.line,
+                                    term_bound(expr, getattr(self, "terms", {})), nvars)
         self.check_values(parts, parameters)
         return parts
 

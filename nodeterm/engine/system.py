@@ -561,14 +561,22 @@ class System:
 
     # --- matrix and solution ----------------------------------------------------
     def matrix(self) -> MatrixForm:
-        """The reduced system as A x = b, rows labelled by equation, columns by unknown."""
+        """The reduced system as A x = b, rows labelled by equation, columns by unknown.
+
+        Computed once per System (the System is immutable) and kept.
+        """
+        cached = self.__dict__.get("_matrix")
+        if cached is not None:
+            return cached
         residuals = [sympy.expand(e.residual) for e in self.reduced_equations]
         if self.reduced_unknowns:
             A, b = sympy.linear_eq_to_matrix(residuals, list(self.reduced_unknowns))
         else:
             A, b = sympy.zeros(len(residuals), 0), sympy.Matrix([-r for r in residuals])
-        return MatrixForm(A, b, tuple(e.label for e in self.reduced_equations),
+        form = MatrixForm(A, b, tuple(e.label for e in self.reduced_equations),
                           tuple(str(u) for u in self.reduced_unknowns))
+        object.__setattr__(self, "_matrix", form)  # a cache on a frozen dataclass, not state
+        return form
 
     def solve(self):
         """Solve exactly; see :func:`nodeterm.engine.solve.solve_system`."""
