@@ -363,18 +363,17 @@ def build_system(circuit: Circuit) -> "System":
         lhs = sympy.Add(*[t.expr for t in terms], evaluate=False) if len(terms) > 1 else terms[0].expr
         kcl_eqs.append(Equation(kind, at, lhs, sympy.Integer(0), terms,
                                 tuple(t.part for t in terms), _label(kind, at)))
-    kcl_text = (f"Currents leaving each node sum to zero; written at {len(kcl_eqs)} node(s)/supernode(s). ")
+    n_kcl = len(kcl_eqs)
+    kcl_text = f"Currents leaving = 0, at {n_kcl} node{'s' if n_kcl != 1 else ''} or supernode{'s' if n_kcl != 1 else ''}. "
     if skipped:
         kcl_text += ("No KCL at " + ", ".join(f"{n} (output of {pid})" for n, pid in skipped)
-                     + ": an op-amp output supplies whatever current the circuit needs, so that KCL would "
-                       "only add an unknown current. ")
+                     + ": an op-amp output supplies any current, so that KCL would only add an unknown. ")
     if internal:
-        kcl_text += (", ".join(internal) + (" lies" if len(internal) == 1 else " lie")
-                     + " inside a supernode: the current leaves one member node and enters another, "
-                       "so it cancels from the supernode KCL. ")
+        kcl_text += (", ".join(internal) + (" is" if len(internal) == 1 else " are")
+                     + " inside a supernode, so " + ("its" if len(internal) == 1 else "their")
+                     + " current cancels from its KCL. ")
     if set_by_sources:
-        kcl_text += ("No KCL at " + ", ".join(set_by_sources)
-                     + ": their voltages are fixed by source constraints.")
+        kcl_text += ("No KCL at " + ", ".join(set_by_sources) + ": fixed by source constraints.")
     steps.append(Step("kcl", "KCL at the nodes", kcl_text.strip(), tuple(kcl_eqs),
                       data={"skipped": skipped, "set_by_sources": tuple(set_by_sources),
                             "inside_supernodes": tuple(internal)}))
