@@ -17,7 +17,7 @@ import sys
 
 import sympy
 
-from .cli import command, parse_sets, register_subcommand
+from .cli import DEFAULT_TIME_LIMIT, command, parse_sets, register_subcommand
 from .engine import InputError, build_system, load_circuit
 from .engine.expr import ExpressionError, parse_expression
 from .engine.symbols import param
@@ -80,7 +80,11 @@ def _common(p: argparse.ArgumentParser) -> None:
     p.add_argument("file", help="circuit file (TOML)")
     p.add_argument("--set", action="append", metavar="NAME=VALUE",
                    help="override a parameter value (repeatable), e.g. --set R1=10k")
+    p.add_argument("--known", action="store_true",
+                   help="accepted for symmetry with solve: the analyses always use the file's values")
     p.add_argument("--ascii", action="store_true", help="7-bit output only")
+    p.add_argument("--time-limit", type=float, default=DEFAULT_TIME_LIMIT, metavar="SECONDS",
+                   help=f"give up after this many seconds (default {DEFAULT_TIME_LIMIT:g}; 0 for no limit)")
 
 
 @register_subcommand
@@ -121,7 +125,7 @@ def _add(sub) -> None:
 @command("response")
 def cmd_response(args) -> int:
     from .engine.analysis.realopamp import prepared
-    from .engine.analysis.transfer import frequency_response, transfer_functions
+    from .engine.analysis.transfer import auto_range, frequency_response, transfer_functions
     from .present.analysis import response_csv, response_plot, response_table, transfer_lines
     f_lo, f_hi = frequency_range(args.f_from, args.f_to)
     if args.points < 2:
@@ -138,6 +142,12 @@ def cmd_response(args) -> int:
     if args.find:
         tfs_sym = {k: v for k, v in tfs_sym.items() if k == args.find}
         tfs = {k: v for k, v in tfs.items() if k == args.find}
+    numeric = [tf for tf in tfs.values() if tf.is_numeric]
+    if len(numeric) > 1 and (f_lo is None or f_hi is None):
+        # one shared range, so that the CSV's frequency column serves every quantity
+        ranges = [auto_range(tf) for tf in numeric]
+        f_lo = min(r[0] for r in ranges) if f_lo is None else f_lo
+        f_hi = max(r[1] for r in ranges) if f_hi is None else f_hi
     lines: list[str] = []
     if not tfs:
         lines.append("No [find] quantity depends on s: the circuit has no capacitor, inductor or op-amp gbw "
@@ -165,12 +175,8 @@ def cmd_response(args) -> int:
         if args.csv == "-":
             sys.stdout.write(text)
             return 0
-        try:
-            with open(args.csv, "w", encoding="utf-8", newline="") as fh:
-                fh.write(text)
-        except OSError as err:
-            raise InputError(f"cannot write {args.csv}: {err.strerror or err}", hint="check the path",
-                             file=CMDLINE) from None
+        from .present.export import write_atomic
+        write_atomic(args.csv, text, force=True)  # asked for by name: replaced, atomically (ExportError says why not)
         lines.append(f"wrote {args.csv}")
     _finish(lines, _warnings(system), args.ascii)
     return 0
