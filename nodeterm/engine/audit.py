@@ -16,21 +16,16 @@ fraction-free solver as the circuit, and the verdict names the equation it
 matches, its scale, and the constraints (known voltages, op-amp input
 equalities) used on the way.
 
-An equation that **fails** is compared with every generated equation, both as
-written and after the known voltages and input equalities are substituted
-(:attr:`System.eliminated`). Each comparison scales the generated equation by a
-factor read off a shared coefficient, then attributes the claim, coordinate by
-coordinate (coefficient of each unknown and the constant), to the per-part
-terms of the KCL equation: a coefficient only one part contributes tells that
-part's multiplier (1 right, 0 missing, -1 sign error, anything else a wrong
-coefficient); what no part explains is an extra term. The comparison with the
-fewest differences is reported, with a numeric example.
+An equation that **fails** is compared with every generated equation and
+explained part by part against the closest one (:mod:`.closest_equation`, on the
+linear forms of :mod:`.claim_forms`), with a numeric example.
 
 A claimed result is compared symbolically (``cancel`` decides for rational
 functions); when the expression has roots or other non-rational atoms and
 simplification does not settle it, at several random points (and the verdict
 says so). A wrong result is shown beside the solved one with their ratio or
-difference and a likely cause (sign, factor, swapped or mixed-up parameters).
+difference and a likely cause (sign, factor, swapped or mixed-up parameters;
+:mod:`.result_causes`).
 
 Written here because no library compares a hand derivation with a system of
 equations and explains the difference in terms of circuit parts.
@@ -64,23 +59,19 @@ sign error on the term from Rb: it is (V_inv - V_out)/R2 (current leaving inv th
 
 from __future__ import annotations
 
-import random
 from dataclasses import dataclass, field
 
 import sympy
-from sympy.solvers.solveset import NonlinearError
 
+from .claim_forms import _ONE, _linear, _r, _t, _zero
+from .closest_equation import HELPER_KINDS, PRIMARY_KINDS, _closest
 from .expr import ExpressionError, parse_expression
 from .loader import quantity_resolver
+from .result_causes import _NUMERIC_POINTS, _example, _is_zero, _result_cause
 from .solve import solve_linear
 from .symbols import I, V, param
 
 HOLDS, FAILS, ERROR = "holds", "fails", "error"
-PRIMARY_KINDS = ("kcl", "supernode_kcl", "source_constraint", "opamp_gain")
-HELPER_KINDS = ("known_voltage", "opamp_equality")
-_ONE = "1"  # key of the constant coordinate in a linear form
-_NUMERIC_POINTS = 6
-_NUMERIC_TOL = 1e-9
 
 
 @dataclass(frozen=True)
@@ -115,19 +106,6 @@ class Verdict:
     @property
     def ok(self) -> bool:
         return self.status == HOLDS
-
-
-def _t(expr) -> str:
-    return sympy.sstr(expr, order="none")
-
-
-def _r(expr) -> str:
-    """A result in SymPy's usual order (descending powers of s), as the reports print results."""
-    return sympy.sstr(expr)
-
-
-def _zero(expr) -> bool:
-    return sympy.cancel(sympy.together(expr)) == 0
 
 
 class _BadClaim(Exception):
@@ -239,7 +217,7 @@ class Auditor:
                             "write the equation you derived")
         lhs_p, rhs_p = self._prepare(lhs), self._prepare(rhs)
         r = lhs_p - rhs_p
-        holds, method = self._is_zero(r.xreplace(self.sol))
+        holds, method = _is_zero(r.xreplace(self.sol))
         details: dict = {"claim": text}
         if method == "numeric":
             details["method"] = f"numeric check at {_NUMERIC_POINTS} random points (symbolic simplification inconclusive)"
@@ -327,7 +305,7 @@ class Auditor:
         return [sympy.cancel(k) for k in lam]
 
     def _fails(self, name: str, lhs, rhs, r, details: dict, loc: dict) -> Verdict:
-        example = self._example(lhs, rhs)
+        example = _example(lhs, rhs, self.sol)
         if example:
             details["example"] = example
         lin = self._linear_claim(r)
@@ -336,7 +314,7 @@ class Auditor:
             expr, note = lin
             if note:
                 details["scale"] = note
-            best = self._closest(expr)
+            best = _closest(expr, self.equations, self.elim, self.xs)
         ex = ""
         if example:
             vals = ", ".join(f"{k} = {v}" for k, v in example["values"].items())
@@ -396,121 +374,6 @@ class Auditor:
             details["step_title"] = self.system.steps[step - 1].title
         return e, diffs, step, used
 
-    def _closest(self, r):
-        candidates = []
-        # Compare as written, then with the constraints the claim does not mention substituted
-        # (V_in = Vin, but V_m kept when the claim uses V_m), then fully reduced.
-        present = r.free_symbols
-        modes, seen = [], []
-        for subs in ({}, {x: v for x, v in self.elim.items() if x not in present}, dict(self.elim)):
-            if subs in seen:
-                continue
-            seen.append(subs)
-            rr = sympy.expand(r.xreplace(subs)) if present & set(subs) else r
-            xs = [x for x in self.xs if x not in subs]
-            eqs = [e.subs(subs) for e in self.equations] if subs else self.equations
-            modes.append((subs, rr, xs, eqs))
-        for mode_rank, (mode, rr, xs, eqs) in enumerate(modes):
-            R = _linear(rr, xs)
-            if R is None or not R:
-                continue
-            for idx, (orig, e) in enumerate(zip(self.equations, eqs)):
-                if mode and e.kind in HELPER_KINDS:
-                    continue
-                terms = [(t.part, t.expr) for t in e.terms] if e.terms else []
-                if terms and not _zero(sum(t for _, t in terms) - e.residual):
-                    terms.append(("", e.residual - sum(t for _, t in terms)))
-                if not terms:
-                    terms = [("", e.residual)]
-                forms = [_linear(t, xs) for _, t in terms]
-                if any(f is None for f in forms):
-                    continue
-                total = _add_forms(forms)
-                if not total:
-                    continue
-                ks = []
-                for x, v in R.items():
-                    if x in total:
-                        k = sympy.cancel(v / total[x])
-                        for kk in (k, -k):  # a sign error on one of two terms reads either way
-                            if kk not in ks:
-                                ks.append(kk)
-                for k in ks:
-                    mu, left = _attribute(R, forms, k)
-                    score = sum(1 for m in mu if m != 1) + len(left)
-                    if score == 0:
-                        continue  # cannot happen for a failing claim; guard anyway
-                    rank = (score, mode_rank, _k_rank(k), 0 if e.kind in PRIMARY_KINDS else 1, idx)
-                    candidates.append((rank, orig, e, k, terms, mu, left, mode, xs))
-        if not candidates:
-            return None
-        candidates.sort(key=lambda c: c[0])
-        rank, orig, e, k, terms, mu, left, mode, xs = candidates[0]
-        return orig, k, self._describe(e, terms, mu, left, k), mode, rank[0]
-
-    def _describe(self, e, terms, mu, left, k) -> list[str]:
-        node = e.at
-        out = []
-        for (part, t), m in zip(terms, mu):
-            if m == 1:
-                continue
-            what = f"the term from {part}" if part else f"{e.label}"
-            shown = f"{_t(t)} (current leaving {node} through {part})" if part and e.kind in ("kcl", "supernode_kcl") \
-                else _t(t)
-            if m == 0:
-                out.append(f"missing {what}: {shown}" if part else f"missing {_t(t)}")
-            elif m == -1:
-                out.append(f"sign error on {what}: it is {shown}")
-            elif m.is_number:
-                out.append(f"wrong coefficient on {what}: written as {_t(m)} x ({_t(t)}); it is {shown}")
-            else:
-                out.append(f"{what} is off by a factor {_t(m)}: written as {_t(sympy.cancel(m * t))}; it is {shown}"
-                           + _swap_hint(m))
-        if left:
-            extra = sum((v / k * (sympy.Integer(1) if x == _ONE else x) for x, v in left.items()), sympy.Integer(0))
-            at = f"at {node}" if e.kind in ("kcl", "supernode_kcl") else f"in {e.label}"
-            out.append(f"extra term {_t(sympy.cancel(extra) if extra.is_number else sympy.factor_terms(extra))} "
-                       f"that no part {at} gives")
-        return out or [f"differs from {e.label}"]
-
-    # --- examples -------------------------------------------------------------
-    def _example(self, lhs, rhs) -> dict | None:
-        """Values making the two sides differ (at the solution)."""
-        L, Rr = lhs.xreplace(self.sol), rhs.xreplace(self.sol)
-        used = sorted((lhs.free_symbols | rhs.free_symbols) & set(self.sol), key=str)
-        syms = set(L.free_symbols | Rr.free_symbols)
-        for u in used:
-            syms |= sympy.sympify(self.sol[u]).free_symbols
-        syms = sorted(syms, key=str)
-        primes = [2, 3, 5, 7, 11, 13, 17, 19, 23, 29, 31, 37]
-        for shift in range(4):
-            vals = {x: sympy.Integer(primes[(i + shift) % len(primes)]) for i, x in enumerate(syms)}
-            try:
-                a = sympy.cancel(L.xreplace(vals))
-                b = sympy.cancel(Rr.xreplace(vals))
-            except (ZeroDivisionError, ValueError):
-                continue
-            if a.has(sympy.zoo, sympy.nan) or b.has(sympy.zoo, sympy.nan) or a == b:
-                continue
-            out = {"values": {str(x): _t(v) for x, v in vals.items()}, "lhs": _t(a), "rhs": _t(b)}
-            if used:
-                out["solution"] = {str(u): _t(sympy.cancel(self.sol[u].xreplace(vals))) for u in used}
-            return out
-        return None
-
-    def _is_zero(self, expr) -> tuple[bool, str]:
-        d = sympy.cancel(sympy.together(expr))
-        if d == 0:
-            return True, "symbolic"
-        if not _irrational(d):
-            return False, "symbolic"
-        try:
-            if sympy.simplify(d) == 0:
-                return True, "symbolic"
-        except Exception:  # noqa: BLE001 - simplify can fail on odd input; fall back to numbers
-            pass
-        return _numeric_zero(d), "numeric"
-
     # --- claimed results --------------------------------------------------------
     def _result(self, name: str, text: str, column: int | None, loc: dict) -> Verdict:
         offset = 0
@@ -525,7 +388,7 @@ class Auditor:
         expr = self._parse(text_expr, offset, column)
         claimed = self._prepare(expr).xreplace(self.sol)
         solved = self.solution.find[name]
-        holds, method = self._is_zero(claimed - solved)
+        holds, method = _is_zero(claimed - solved)
         details = {"claim": text, "claimed": _r(claimed), "solved": _r(solved),
                    "method": "symbolic" if method == "symbolic" else
                    f"numeric check at {_NUMERIC_POINTS} random points (symbolic simplification inconclusive)"}
@@ -542,7 +405,7 @@ class Auditor:
         cause = _result_cause(claimed, solved, ratio, diff)
         if cause:
             details["cause"] = cause
-        example = self._example(self._prepare(expr), solved)
+        example = _example(self._prepare(expr), solved, self.sol)
         if example:
             example = {**example, "claimed": example.pop("lhs"), "solved": example.pop("rhs")}
             details["example"] = example
@@ -557,86 +420,6 @@ class Auditor:
 
 
 # --- helpers -----------------------------------------------------------------------
-def _linear(expr, xs) -> dict | None:
-    """{unknown: coefficient, "1": constant} of an expression linear in ``xs``; None if not linear."""
-    expr = sympy.sympify(expr)
-    if not xs:
-        return {_ONE: sympy.cancel(expr)} if not _zero(expr) else {}
-    try:
-        A, b = sympy.linear_eq_to_matrix([expr], list(xs))
-    except (NonlinearError, ValueError):
-        return None
-    out = {}
-    for i, x in enumerate(xs):
-        v = sympy.cancel(A[0, i])
-        if v != 0:
-            if v.free_symbols & set(xs):
-                return None
-            out[x] = v
-    c = sympy.cancel(-b[0])
-    if c != 0:
-        out[_ONE] = c
-    return out
-
-
-def _add_forms(forms) -> dict:
-    total: dict = {}
-    for f in forms:
-        for x, v in f.items():
-            total[x] = total.get(x, 0) + v
-    return {x: sympy.cancel(v) for x, v in total.items() if not _zero(v)}
-
-
-def _attribute(R: dict, forms: list[dict], k) -> tuple[list, dict]:
-    """Multipliers of each part term (scaled by k) that best explain the claim R, and what is left."""
-    n = len(forms)
-    supports = [set(f) for f in forms]
-    mu: list = [None] * n
-    for j in range(n):
-        others = set().union(*(supports[i] for i in range(n) if i != j)) if n > 1 else set()
-        private = sorted(supports[j] - others, key=str)
-        if private:
-            x = private[0]
-            mu[j] = sympy.cancel(R.get(x, 0) / (k * forms[j][x]))
-    undetermined = [j for j in range(n) if mu[j] is None]
-    mu = [sympy.Integer(1) if m is None else m for m in mu]
-    left = _leftover(R, forms, mu, k)
-    if left:
-        fits = []
-        for j in range(n):
-            if set(left) != supports[j]:
-                continue
-            ratios = {sympy.cancel(left[x] / (k * forms[j][x])) for x in left}
-            if len(ratios) == 1:
-                ratio = ratios.pop()
-                fits.append((0 if ratio.is_number else 1, 0 if j in undetermined else 1, j, ratio))
-        if fits:
-            fits.sort(key=lambda f: f[:3])
-            _, _, j, ratio = fits[0]
-            mu[j] = sympy.cancel(mu[j] + ratio)
-            left = _leftover(R, forms, mu, k)
-    return mu, left
-
-
-def _leftover(R, forms, mu, k) -> dict:
-    coords = set(R).union(*[set(f) for f in forms])
-    left = {}
-    for x in coords:
-        v = sympy.cancel(R.get(x, 0) - sum((m * k * f.get(x, 0) for m, f in zip(mu, forms)), sympy.Integer(0)))
-        if v != 0:
-            left[x] = v
-    return left
-
-
-def _k_rank(k) -> int:
-    if k == 1:
-        return 0
-    if k.is_number:
-        return 1 if k > 0 else 4
-    plain = abs(k.as_coeff_Mul()[0]) == 1  # multiplied through by parameters, no stray number
-    return (2 if plain else 3) if not k.could_extract_minus_sign() else (4 if plain else 5)
-
-
 def _eq_text(e) -> str:
     """An equation as the engineer would write it; an input equality as V_minus = V_plus."""
     if e.kind == "opamp_equality":
@@ -650,75 +433,6 @@ def _scale_words(k) -> str:
     if k == -1:
         return ""  # the same equation with its sides swapped or negated
     return f" (multiplied by {_t(k)})"
-
-
-def _swap_hint(m) -> str:
-    num, den = sympy.fraction(sympy.cancel(m))
-    if isinstance(num, sympy.Symbol) and isinstance(den, sympy.Symbol):
-        return f" ({den} written where {num} belongs?)"
-    return ""
-
-
-def _irrational(expr) -> bool:
-    """True when ``cancel`` alone may not decide whether ``expr`` is zero (roots, functions)."""
-    for a in sympy.preorder_traversal(expr):
-        if isinstance(a, sympy.Pow) and not a.exp.is_Integer:
-            return True
-        if isinstance(a, sympy.Function):
-            return True
-    return False
-
-
-def _numeric_zero(expr) -> bool:
-    """Zero at several random positive points (relative to the size of the terms)?"""
-    syms = sorted(expr.free_symbols, key=str)
-    rng = random.Random(1729)  # reproducible: a verdict must not change between runs
-    f = sympy.lambdify(syms, expr, modules="mpmath")
-    import mpmath
-    mpmath.mp.dps = 30
-    for _ in range(_NUMERIC_POINTS):
-        point = [mpmath.mpf(rng.uniform(0.5, 5.0)) for _ in syms]
-        try:
-            value = complex(f(*point))
-        except (ZeroDivisionError, ValueError, TypeError):
-            continue
-        if abs(value) > _NUMERIC_TOL:
-            return False
-    return True
-
-
-def _result_cause(claimed, solved, ratio, diff) -> str:
-    """A likely cause of a wrong result, when one is detectable."""
-    if ratio is not None:
-        if ratio == -1:
-            return "sign error (the claim is the negative of the result)"
-        if ratio in (2, sympy.Rational(1, 2), -2, -sympy.Rational(1, 2)):
-            return f"a factor of {_t(ratio)}" + (" and a sign error" if ratio < 0 else "")
-        if ratio.is_number:
-            return f"a constant factor of {_t(ratio)}"
-    params = sorted((claimed.free_symbols | solved.free_symbols) - {sympy.Symbol("s")}, key=str)
-    params = params[:12]  # a few dozen pairs at most
-    for i, a in enumerate(params):
-        for b in params[i + 1:]:
-            swapped = claimed.xreplace({a: b, b: a})
-            if _zero(swapped - solved):
-                return f"{a} and {b} are swapped"
-            if _zero(swapped + solved):
-                return f"{a} and {b} are swapped, and the sign is wrong"
-    if claimed != 0 and solved != 0 and _zero(claimed * solved - 1):
-        return "upside down (the claim is 1 over the result)"
-    for a in params:
-        for b in params:
-            if a != b and a in claimed.free_symbols and _zero(claimed.xreplace({a: b}) - solved):
-                return f"{a} written where {b} belongs"
-    if diff.is_number:
-        return f"off by a constant {_t(diff)} (e.g. a missing '1 +')" if abs(diff) == 1 else ""
-    num, _ = sympy.fraction(sympy.factor(diff))
-    for f in sympy.Mul.make_args(num):
-        if isinstance(f, sympy.Add) and len(f.args) == 2 and f.free_symbols <= set(params):
-            a, b = f.args
-            return f"the two agree only when {_r(a)} = {_r(-b)} (a matched-ratio formula used for unmatched parts?)"
-    return ""
 
 
 # --- module entry points ---------------------------------------------------------------

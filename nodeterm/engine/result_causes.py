@@ -1,0 +1,144 @@
+"""Likely causes of a wrong claim: sign, factor, swapped parameters; and the numeric checks.
+
+When a claimed result differs from the solved one, :func:`_result_cause` names
+the likely slip (a sign error, a factor of 2, two parameters swapped, one
+written where another belongs, a result upside down...). :func:`_is_zero`
+decides whether a difference is zero: ``cancel`` for rational functions, then
+``simplify``, then :func:`_numeric_zero` at a few reproducible random points
+when the expression has roots or functions. :func:`_example` finds small
+values that make the two sides of a failing claim differ.
+
+Written here because no library names the slip behind a wrong formula; SymPy
+does the algebra.
+
+>>> from nodeterm.engine.symbols import param
+>>> R1, R2 = param("R1"), param("R2")
+>>> _result_cause(-R1/R2, R1/R2, sympy.Integer(-1), -2*R1/R2)
+'sign error (the claim is the negative of the result)'
+>>> _result_cause(R2/R1 + 1, R1/R2 + 1, None, R2/R1 - R1/R2)
+'R1 and R2 are swapped'
+>>> _is_zero(sympy.sqrt(R1**2) - R1)
+(True, 'numeric')
+"""
+
+from __future__ import annotations
+
+import random
+
+import sympy
+
+from .claim_forms import _r, _t, _zero
+
+_NUMERIC_POINTS = 6
+_NUMERIC_TOL = 1e-9
+
+
+def _is_zero(expr) -> tuple[bool, str]:
+    """Whether ``expr`` is zero, and how that was decided ("symbolic" or "numeric")."""
+    d = sympy.cancel(sympy.together(expr))
+    if d == 0:
+        return True, "symbolic"
+    if not _irrational(d):
+        return False, "symbolic"
+    try:
+        if sympy.simplify(d) == 0:
+            return True, "symbolic"
+    except Exception:  # noqa: BLE001 - simplify can fail on odd input; fall back to numbers
+        pass
+    return _numeric_zero(d), "numeric"
+
+
+def _irrational(expr) -> bool:
+    """True when ``cancel`` alone may not decide whether ``expr`` is zero (roots, functions)."""
+    for a in sympy.preorder_traversal(expr):
+        if isinstance(a, sympy.Pow) and not a.exp.is_Integer:
+            return True
+        if isinstance(a, sympy.Function):
+            return True
+    return False
+
+
+def _numeric_zero(expr) -> bool:
+    """Zero at several random positive points (relative to the size of the terms)?"""
+    syms = sorted(expr.free_symbols, key=str)
+    rng = random.Random(1729)  # reproducible: a verdict must not change between runs
+    f = sympy.lambdify(syms, expr, modules="mpmath")
+    import mpmath
+    mpmath.mp.dps = 30
+    for _ in range(_NUMERIC_POINTS):
+        point = [mpmath.mpf(rng.uniform(0.5, 5.0)) for _ in syms]
+        try:
+            value = complex(f(*point))
+        except (ZeroDivisionError, ValueError, TypeError):
+            continue
+        if abs(value) > _NUMERIC_TOL:
+            return False
+    return True
+
+
+def _result_cause(claimed, solved, ratio, diff) -> str:
+    """A likely cause of a wrong result, when one is detectable."""
+    if ratio is not None:
+        if ratio == -1:
+            return "sign error (the claim is the negative of the result)"
+        if ratio in (2, sympy.Rational(1, 2), -2, -sympy.Rational(1, 2)):
+            return f"a factor of {_t(ratio)}" + (" and a sign error" if ratio < 0 else "")
+        if ratio.is_number:
+            return f"a constant factor of {_t(ratio)}"
+    params = sorted((claimed.free_symbols | solved.free_symbols) - {sympy.Symbol("s")}, key=str)
+    params = params[:12]  # a few dozen pairs at most
+    for i, a in enumerate(params):
+        for b in params[i + 1:]:
+            swapped = claimed.xreplace({a: b, b: a})
+            if _zero(swapped - solved):
+                return f"{a} and {b} are swapped"
+            if _zero(swapped + solved):
+                return f"{a} and {b} are swapped, and the sign is wrong"
+    if claimed != 0 and solved != 0 and _zero(claimed * solved - 1):
+        return "upside down (the claim is 1 over the result)"
+    for a in params:
+        for b in params:
+            if a != b and a in claimed.free_symbols and _zero(claimed.xreplace({a: b}) - solved):
+                return f"{a} written where {b} belongs"
+    if diff.is_number:
+        return f"off by a constant {_t(diff)} (e.g. a missing '1 +')" if abs(diff) == 1 else ""
+    num, _ = sympy.fraction(sympy.factor(diff))
+    for f in sympy.Mul.make_args(num):
+        if isinstance(f, sympy.Add) and len(f.args) == 2 and f.free_symbols <= set(params):
+            a, b = f.args
+            return f"the two agree only when {_r(a)} = {_r(-b)} (a matched-ratio formula used for unmatched parts?)"
+    return ""
+
+
+
+def _swap_hint(m) -> str:
+    num, den = sympy.fraction(sympy.cancel(m))
+    if isinstance(num, sympy.Symbol) and isinstance(den, sympy.Symbol):
+        return f" ({den} written where {num} belongs?)"
+    return ""
+
+
+
+def _example(lhs, rhs, sol) -> dict | None:
+    """Values making the two sides differ (at the solution)."""
+    L, Rr = lhs.xreplace(sol), rhs.xreplace(sol)
+    used = sorted((lhs.free_symbols | rhs.free_symbols) & set(sol), key=str)
+    syms = set(L.free_symbols | Rr.free_symbols)
+    for u in used:
+        syms |= sympy.sympify(sol[u]).free_symbols
+    syms = sorted(syms, key=str)
+    primes = [2, 3, 5, 7, 11, 13, 17, 19, 23, 29, 31, 37]
+    for shift in range(4):
+        vals = {x: sympy.Integer(primes[(i + shift) % len(primes)]) for i, x in enumerate(syms)}
+        try:
+            a = sympy.cancel(L.xreplace(vals))
+            b = sympy.cancel(Rr.xreplace(vals))
+        except (ZeroDivisionError, ValueError):
+            continue
+        if a.has(sympy.zoo, sympy.nan) or b.has(sympy.zoo, sympy.nan) or a == b:
+            continue
+        out = {"values": {str(x): _t(v) for x, v in vals.items()}, "lhs": _t(a), "rhs": _t(b)}
+        if used:
+            out["solution"] = {str(u): _t(sympy.cancel(sol[u].xreplace(vals))) for u in used}
+        return out
+    return None
