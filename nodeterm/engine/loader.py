@@ -1,8 +1,9 @@
 """Load a circuit file (TOML) into a validated :class:`~.model.Circuit`.
 
 TOML itself is read by the standard library's ``tomllib``. It gives no line
-numbers, so :class:`_Lines` finds the line of each table and key by a light
-scan of the text: enough to point the user at the offending line.
+numbers, so :class:`.file_lines._Lines` finds the line of each table and key by
+a light scan of the text: enough to point the user at the offending line.
+:class:`.size_limits._SizeLimits` refuses values that would blow up.
 """
 
 from __future__ import annotations
@@ -18,10 +19,11 @@ from pathlib import Path
 import sympy
 
 from .errors import InputError, Warning
-from .expr import (MAX_EXPONENT, MAX_LITERAL_DIGITS, MAX_NUMBER_BITS, MAX_TERMS, ExpressionError,
-                   parse_expression, size_bound, term_bound)
+from .expr import MAX_LITERAL_DIGITS, ExpressionError, parse_expression
+from .file_lines import _Lines
 from .model import Circuit, FindItem, HandItem, Parameter
 from .parts import KINDS, Part
+from .size_limits import _SizeLimits
 from .symbols import I, V, param, s
 
 MAX_FILE_BYTES = 5_000_000
@@ -32,53 +34,13 @@ ID_RE = re.compile(r"^[A-Za-z][A-Za-z0-9_]*$")
 TOP_KEYS = ("title", "reference", "parameters", "parts", "find", "hand")
 RESERVED = {"s", "pi", "sqrt"}
 
-_HEADER = re.compile(r"^\s*\[\s*([A-Za-z0-9_\-\"' .]+?)\s*\]\s*(#.*)?$")
-_KEY = re.compile(r"^\s*(\"[^\"]*\"|'[^']*'|[A-Za-z0-9_\-]+)\s*=")
-
-
-class _Lines:
-    """Where each table and key sits in the file text (1-based lines)."""
-
-    def __init__(self, text: str) -> None:
-        self.lines = text.splitlines()
-        self.keys: dict[tuple[str, str], int] = {}
-        self.tables: dict[str, int] = {}
-        table = ""
-        for number, line in enumerate(self.lines, start=1):
-            m = _HEADER.match(line)
-            if m:
-                table = m.group(1).strip().strip("\"'")
-                self.tables.setdefault(table, number)
-                continue
-            m = _KEY.match(line)
-            if m:
-                self.keys.setdefault((table, m.group(1).strip("\"'")), number)
-
-    def key(self, table: str, key: str) -> int | None:
-        return self.keys.get((table, key))
-
-    def column_of(self, line: int | None, needle: str, after: str = "") -> int | None:
-        """1-based column where the string literal ``needle`` starts on ``line`` (inside its quotes)."""
-        if line is None or not (1 <= line <= len(self.lines)):
-            return None
-        text = self.lines[line - 1]
-        start = 0
-        if after:
-            m = re.search(r"\b" + re.escape(after) + r"\s*=", text)
-            if m:
-                start = m.end()
-        for quote in ('"', "'"):
-            pos = text.find(quote + needle + quote, start)
-            if pos >= 0:
-                return pos + 2
-        return None
-
 
 class _Loader:
     def __init__(self, text: str, filename: str) -> None:
         self.text = text
         self.file = filename
         self.where = _Lines(text)
+        self.limits = _SizeLimits(self.error)
         self.warnings: list[Warning] = []
         self._parsed: dict = {}  # (text, resolver) -> expression: big circuits repeat their values
 
@@ -215,51 +177,8 @@ class _Loader:
             text = raw if isinstance(raw, str) else str(raw)
             result[name] = Parameter(name, value, line, tolerance, text, distribution)
         self.check_cycles(result)
-        self.check_sizes(result)
+        self.limits.check_parameters(result)
         return result
-
-    def check_sizes(self, params: dict[str, Parameter]) -> None:
-        """Refuse values whose numbers or degree, with the parameters they use, would blow up."""
-        self.bounds: dict = {}
-        self.terms: dict = {}
-        self.vars: dict = {}
-
-        def bound(name: str):
-            sym = param(name)
-            if sym not in self.bounds:
-                value = params[name].value
-                deps = {str(x) for x in value.free_symbols} if value is not None else set()
-                for d in sorted(deps & set(params)):
-                    bound(d)
-                self.bounds[sym] = size_bound(value, self.bounds) if value is not None else (0, 0, 1, 0)
-                self.terms[sym] = term_bound(value, self.terms) if value is not None else (1, 1)
-                self.vars[sym] = (set().union(*(self.vars[param(d)] for d in deps & set(params)))
-                                  | {n for n in deps if n not in params}) if value is not None else {name}
-                self.check_size(self.bounds[sym], f"parameter {name}", params[name].line, self.terms[sym],
-                                len(self.vars[sym]))
-            return self.bounds[sym]
-
-        for name in params:
-            bound(name)
-
-    def check_size(self, b, what: str, line: int | None, terms: tuple[int, int] = (1, 1),
-                   nvars: int | None = None) -> None:
-        if max(b[0], b[1]) > MAX_NUMBER_BITS:
-            raise self.error(f"{what}: with the parameters it uses, its exact value would need numbers of "
-                             f"more than {MAX_NUMBER_BITS} bits",
-                             hint="check the powers in the chain of parameters", line=line)
-        if max(b[2], b[3]) > MAX_EXPONENT:
-            raise self.error(f"{what}: with the parameters it uses, its value has degree "
-                             f"{max(b[2], b[3])} in its symbols (limit {MAX_EXPONENT})",
-                             hint="check the powers in the chain of parameters", line=line)
-        if nvars is not None:  # a polynomial of degree d in v symbols has at most C(v+d, d) terms
-            cap = math.comb(nvars + max(b[2], b[3]), nvars) if nvars else 1
-            terms = tuple(min(n, cap) for n in terms)
-        if max(terms) > MAX_TERMS:
-            raise self.error(f"{what}: with the parameters it uses, its value expands to more than "
-                             f"{MAX_TERMS} terms",
-                             hint="circuit values are short; check the powers (e.g. (a+b+c)^64) in the value",
-                             line=line)
 
     def tolerance(self, raw: object, name: str, line: int | None) -> sympy.Expr | None:
         if raw is None:
@@ -360,13 +279,7 @@ class _Loader:
             if isinstance(p.control, str) and p.control == p.id:
                 raise self.error(f"part {p.id} is controlled by its own current",
                                  hint="name another part in control", line=p.line)
-        for p in parts:
-            for what, expr in (("value", p.value), ("gain", p.gain)):
-                if expr is not None:
-                    syms = getattr(self, "vars", {})
-                    nvars = len(set().union(*(syms.get(x, {str(x)}) for x in expr.free_symbols)))
-                    self.check_size(size_bound(expr, getattr(self, "bounds", {})), f"part {p.id} {what}", p.line,
-                                    term_bound(expr, getattr(self, "terms", {})), nvars)
+        self.limits.check_parts(parts)
         self.check_values(parts, parameters)
         return parts
 
