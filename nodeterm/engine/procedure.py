@@ -108,21 +108,27 @@ class _Forest:
         return None
 
 
-def _check_connected(circuit: Circuit) -> None:
-    """Every node must reach the reference through parts (op-amp inputs draw no current)."""
+def _unreached(circuit: Circuit, skip: tuple[str, ...] = ()) -> list[str]:
+    """The nodes (in circuit order) with no path to the reference through parts whose kind is not in ``skip``."""
     adj: dict[str, set[str]] = {n: set() for n in circuit.nodes}
     for p in circuit.parts:
+        if p.kind in skip:
+            continue
         for a, b in p.links(circuit.reference):
             adj[a].add(b)
             adj[b].add(a)
-    seen = {circuit.reference}
-    stack = [circuit.reference]
+    seen, stack = {circuit.reference}, [circuit.reference]
     while stack:
         for v in adj[stack.pop()]:
             if v not in seen:
                 seen.add(v)
                 stack.append(v)
-    lost = [n for n in circuit.nodes if n not in seen]
+    return [n for n in circuit.nodes if n not in seen]
+
+
+def _check_connected(circuit: Circuit) -> None:
+    """Every node must reach the reference through parts (op-amp inputs draw no current)."""
+    lost = _unreached(circuit)
     if lost:
         inputs = {n for p in circuit.parts if p.kind == "opamp" for n in (p.plus, p.minus)}
         names = ", ".join(lost)
@@ -137,20 +143,7 @@ def _check_connected(circuit: Circuit) -> None:
 
 def _dc_path_warnings(circuit: Circuit) -> list[Warning]:
     """Nodes that reach the reference only through capacitors or current sources."""
-    adj: dict[str, set[str]] = {n: set() for n in circuit.nodes}
-    for p in circuit.parts:
-        if p.kind in ("capacitor", "isource", "vccs", "cccs"):
-            continue
-        for a, b in p.links(circuit.reference):
-            adj[a].add(b)
-            adj[b].add(a)
-    seen, stack = {circuit.reference}, [circuit.reference]
-    while stack:
-        for v in adj[stack.pop()]:
-            if v not in seen:
-                seen.add(v)
-                stack.append(v)
-    lost = [n for n in circuit.nodes if n not in seen]
+    lost = _unreached(circuit, skip=("capacitor", "isource", "vccs", "cccs"))
     if not lost:
         return []
     return [Warning("no-dc-path", f"node{'s' if len(lost) > 1 else ''} {', '.join(lost)} reach"
