@@ -221,7 +221,6 @@ def sources_step(circuit: Circuit, ctx: _Context, branches: list, forest: _Fores
     source_eqs: list[Equation] = []
     opamp_eqs: list[Equation] = []
     order = {n: i for i, n in enumerate(circuit.nodes)}
-    visited = {ref}
     queue = [ref]
     tree_parts_seen: set[str] = set()
     while queue:  # walk out from the reference: known voltages through independent sources
@@ -230,7 +229,6 @@ def sources_step(circuit: Circuit, ctx: _Context, branches: list, forest: _Fores
             if part.id in tree_parts_seen:
                 continue
             tree_parts_seen.add(part.id)
-            visited.add(v)
             queue.append(v)
             if getattr(part, "independent", False) and u in known:
                 sign = 1 if part.nodes[0] == v else -1
