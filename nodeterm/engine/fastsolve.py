@@ -464,7 +464,7 @@ def solve_system_fast(system):
         Unsupported: when something is outside the polynomial path (the caller falls back).
         SolveError: when the equations are singular.
     """
-    from .solve import Solution, diagnose_singular
+    from .solve import Solution, diagnose_singular, peel_order
     from .system import _Context
 
     circuit = system.circuit
@@ -527,22 +527,11 @@ def solve_system_fast(system):
         leaving_terms[node] = [total]
         return total
 
-    progress = True
-    while unresolved and progress:  # peel the source forest from its leaves (as solve_system)
-        progress = False
-        for node in circuit.nodes:
-            if node == ref:
-                continue
-            incident = [pid for pid, (a, b) in unresolved.items() if node in (a, b)]
-            if len(incident) != 1:
-                continue
-            pid = incident[0]
-            a, b = unresolved.pop(pid)
-            x = field.neg(leaving(node)) if node == a else leaving(node)
-            currents[pid] = x
-            leaving_terms[a].append(x)
-            leaving_terms[b].append(field.neg(x))
-            progress = True
+    for pid, node, a, b in peel_order(circuit.nodes, ref, unresolved):  # as solve_system
+        x = field.neg(leaving(node)) if node == a else leaving(node)
+        currents[pid] = x
+        leaving_terms[a].append(x)
+        leaving_terms[b].append(field.neg(x))
     if unresolved:
         raise Unsupported("source currents not determined")
     cenv = {I(pid): v for pid, v in currents.items()}

@@ -149,6 +149,33 @@ def solve_linear_sympy(A: sympy.Matrix, b: sympy.Matrix) -> list[sympy.Expr] | N
     return out
 
 
+def peel_order(nodes, ref: str, branches: dict) -> list[tuple[str, str, str, str]]:
+    """The order in which KCL gives each source-branch current, peeling the source forest from its leaves.
+
+    ``branches`` maps a part id to its (a, b) nodes and is emptied of the parts it orders; each entry
+    of the result is (part id, the node whose KCL gives its current, a, b).
+
+    >>> br = {"V1": ("a", "gnd"), "V2": ("b", "a")}
+    >>> peel_order(["gnd", "a", "b"], "gnd", br)
+    [('V2', 'b', 'b', 'a'), ('V1', 'a', 'a', 'gnd')]
+    """
+    order = []
+    progress = True
+    while branches and progress:
+        progress = False
+        for node in nodes:
+            if node == ref:
+                continue
+            incident = [pid for pid, (a, b) in branches.items() if node in (a, b)]
+            if len(incident) != 1:
+                continue
+            pid = incident[0]
+            a, b = branches.pop(pid)
+            order.append((pid, node, a, b))
+            progress = True
+    return order
+
+
 def solve_system(system) -> Solution:
     """Solve a :class:`~.system.System` and derive every current and [find] quantity.
 
@@ -207,24 +234,12 @@ def solve_system_sympy(system) -> Solution:
             else:
                 unresolved[p.id] = br
     leaving = {n: expr.xreplace(full).xreplace(pvals) for n, expr in leaving.items()}
-    progress = True
-    while unresolved and progress:  # peel the source forest from its leaves
-        progress = False
-        for node in circuit.nodes:
-            if node == ref:
-                continue
-            incident = [pid for pid, (a, b) in unresolved.items() if node in (a, b)]
-            if len(incident) != 1:
-                continue
-            pid = incident[0]
-            a, b = unresolved.pop(pid)
-            # branch current x flows a -> b inside the part: it leaves node a and enters node b
-            x = -leaving[node] if node == a else leaving[node]
-            x = canonical(x)
-            currents[pid] = x
-            leaving[a] += x
-            leaving[b] -= x
-            progress = True
+    for pid, node, a, b in peel_order(circuit.nodes, ref, unresolved):
+        # branch current x flows a -> b inside the part: it leaves node a and enters node b
+        x = canonical(-leaving[node] if node == a else leaving[node])
+        currents[pid] = x
+        leaving[a] += x
+        leaving[b] -= x
     for pid in unresolved:  # cannot happen for a forest; keep the report honest if it does
         currents[pid] = sympy.nan
     currents = {p.id: currents[p.id] for p in circuit.parts}
