@@ -277,3 +277,19 @@ def test_time_limit_stops_long_work_with_a_message(tmp_path, capsys):
     finally:
         cli.COMMANDS["solve"] = original
     assert "did not finish within 0.2 s" in capsys.readouterr().err
+
+
+def test_near_misses_get_a_did_you_mean(tmp_path, capsys):
+    from nodeterm.cli import main
+    cases = {
+        'R1 = { kind = "resistr", nodes = ["a", "gnd"], value = 1 }': "did you mean 'resistor'?",
+        'R1 = { kind = "resistor", nodes = ["a", "gnd"], valu = 1 }': "did you mean 'value'?",
+        'R1 = { kind = "resistor", nodes = ["a", "gnd"], value = "2*Rinn" }': "did you mean 'Rin'?",
+    }
+    for i, (line, expected) in enumerate(cases.items()):
+        f = tmp_path / f"near{i}.toml"
+        f.write_text('[parameters]\nRin = "10k"\n[parts]\n'
+                     'V1 = { kind = "vsource", nodes = ["a", "gnd"], value = 1 }\n' + line + "\n")
+        assert main(["solve", str(f)]) == 2
+        err = capsys.readouterr().err
+        assert f"{f}:5" in err and expected in err

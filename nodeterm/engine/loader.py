@@ -8,6 +8,7 @@ a light scan of the text: enough to point the user at the offending line.
 
 from __future__ import annotations
 
+import difflib
 import math
 import re
 try:  # the compiled build of the same parser (tomllib's upstream): ~2.5x faster on big circuit files
@@ -81,6 +82,10 @@ class _Loader:
                         "parts": "define it in [parameters] (NAME = \"value\", or \"\" for a symbol); "
                                  "part values may use parameters and s, not V_ or I_ names",
                         }.get(table, hint)
+                name = err.message.split("'")[1] if "'" in err.message else ""
+                close = difflib.get_close_matches(name, list(getattr(self, "param_names", ())), n=1)
+                if close:
+                    hint = f"did you mean {close[0]!r}? " + hint
             raise self.error(f"{what}: {err.message} in {raw!r}", hint=hint, line=line,
                              column=column) from None
 
@@ -140,6 +145,7 @@ class _Loader:
     # --- parameters -------------------------------------------------------
     def parameters(self, table: dict) -> dict[str, Parameter]:
         names = list(table)
+        self.param_names = tuple(names)
         for name in names:
             line = self.where.key("parameters", name)
             if not ID_RE.match(name):
@@ -259,16 +265,17 @@ class _Loader:
             if not isinstance(kind, str) or kind not in KINDS:  # kind = [] is not hashable
                 raise self.error(f"part {pid}: unknown kind {kind!r}" if kind is not None
                                  else f"part {pid} has no kind",
-                                 hint="kinds: " + ", ".join(KINDS), line=line)
+                                 hint=_did_you_mean(kind, KINDS) + "kinds: " + ", ".join(KINDS), line=line)
             cls = KINDS[kind]
             given = set(raw) - {"kind"}
             missing = [k for k in cls.keys if k not in given]
             extra = sorted(given - set(cls.keys) - set(cls.optional))
+            if extra:  # first: a misspelt key is also a missing one, and its name is the better clue
+                raise self.error(f"part {pid} ({kind}) has unknown key {extra[0]!r}",
+                                 hint=_did_you_mean(extra[0], cls.keys + cls.optional)
+                                 + f"a {kind} takes: " + ", ".join(cls.keys + cls.optional), line=line)
             if missing:
                 raise self.error(f"part {pid} ({kind}) is missing key {missing[0]!r}",
-                                 hint=f"a {kind} takes: " + ", ".join(cls.keys + cls.optional), line=line)
-            if extra:
-                raise self.error(f"part {pid} ({kind}) has unknown key {extra[0]!r}",
                                  hint=f"a {kind} takes: " + ", ".join(cls.keys + cls.optional), line=line)
             parts.append(self.part(cls, pid, raw, line, resolve_value))
         ids = {p.id for p in parts}
@@ -420,6 +427,14 @@ class _Loader:
                                  line=line)
             out[name] = HandItem(name, raw, line, self.where.column_of(line, raw))
         return out
+
+
+def _did_you_mean(word, choices) -> str:
+    """``"did you mean 'resistor'? "`` when ``word`` is a near miss of one of ``choices``, else ``""``."""
+    if not isinstance(word, str):
+        return ""
+    close = difflib.get_close_matches(word, list(choices), n=1)
+    return f"did you mean {close[0]!r}? " if close else ""
 
 
 def quantity_resolver(parameters, nodes, part_ids):
