@@ -83,6 +83,11 @@ class PolyField:
         self.s_index = self.index.get(s)
         self._text_cache: list = []
 
+    def __reduce__(self):
+        """Pickled as its generators and names (the FLINT context is rebuilt on loading), so a
+        solution can cross a process boundary (the workbench solves in a child process)."""
+        return _field_from_state, (self.symbols, self.names, self.atoms)
+
     # --- arithmetic on fractions -----------------------------------------------------
     def const(self, value) -> tuple:
         value = sympy.Rational(value)
@@ -293,6 +298,24 @@ class PolyField:
         return f"{nt}/{dt}"
 
 
+def _field_from_state(symbols, names, atoms) -> PolyField:
+    field = PolyField.__new__(PolyField)
+    field.atoms, field.symbols, field.names = atoms, list(symbols), list(names)
+    field.index = {g: i for i, g in enumerate(field.symbols)}
+    field.ctx = flint.fmpz_mpoly_ctx.get(tuple(names) or ("_",), "lex")
+    field.gens = field.ctx.gens()
+    field.one, field.zero = field.ctx.constant(1), field.ctx.constant(0)
+    field.s_index = field.index.get(s)
+    field._text_cache = []
+    return field
+
+
+def _large_from_state(field, num: dict, den: dict, reduced: bool, text, expr) -> "LargeExpr":
+    out = LargeExpr(field, field.ctx.from_dict(num), field.ctx.from_dict(den), reduced)
+    out._text, out._expr = text, expr
+    return out
+
+
 def _flint_text(p) -> str:
     return str(p).replace("^", "**")
 
@@ -343,6 +366,11 @@ class LargeExpr:
 
     def depends_on_s(self) -> bool:
         return self._field.depends_on_s(self.fraction)
+
+    def __reduce__(self):
+        """Pickled in lowest terms as coefficient dictionaries, with the text and expression if made."""
+        num, den = self.fraction
+        return _large_from_state, (self._field, num.to_dict(), den.to_dict(), True, self._text, self._expr)
 
     def _sympy_(self) -> sympy.Expr:
         if self._expr is None:

@@ -22,7 +22,7 @@ from textual.worker import get_current_worker
 
 from ..engine import InputError, load_circuit
 from ..present.text import matrix_lines, report, steps_lines
-from . import threads
+from . import solver_process, threads
 from .analysis_pane import AnalysisPane, analysis_lines
 from .circuit_pane import CircuitPane
 from .claims_pane import ClaimsPane
@@ -30,7 +30,7 @@ from ..present.export import EXTENSIONS, FORMATS, render, write_atomic
 from .dialogs import ConfirmScreen, ExportScreen, HelpScreen, PathScreen
 from .keys import KEYS, help_text
 from .matrix_pane import MatrixPane
-from .results_pane import ResultsPane
+from .results_pane import ResultsPane, results_text
 from .safety import describe, guarded, logger
 from .session import Session
 from .steps_pane import StepsPane
@@ -87,6 +87,7 @@ class Workbench(App):
 
     def on_mount(self) -> None:
         threads.install()
+        solver_process.warm_up()
         self.query_one("#problem").display = False
         self.set_interval(0.5, self._tick)
         if self.poll:
@@ -176,7 +177,20 @@ class Workbench(App):
     def watch_two_d(self, two_d: bool) -> None:
         self.query_one(StepsPane).set_two_d(two_d)
         if self.solution is not None:
-            self.query_one(ResultsPane).show_solution(self.system, self.solution, two_d)
+            self._print_worker(self.system, self.solution, two_d, self.query_one(ResultsPane).text_width)
+
+    @work(thread=True, exclusive=True, group="print", description="printing the results")
+    def _print_worker(self, system, solution, two_d: bool, width: int) -> None:
+        """Print the results in the other form (a large result takes a while to print)."""
+        worker = get_current_worker()
+        text = _printed(system, solution, two_d, width)
+        if not worker.is_cancelled:
+            self.call_from_thread(self._printed, system, two_d, text)
+
+    @guarded
+    def _printed(self, system, two_d: bool, text: str) -> None:
+        if system is self.system and two_d == self.two_d and self.solution is not None:
+            self.query_one(ResultsPane).show_text(text)
 
     @on(StepsPane.StepChanged)
     @guarded
@@ -217,29 +231,35 @@ class Workbench(App):
         self.analysed = None
         self.busy_since, self.busy_what = time.monotonic(), "solving"
         self._update_status()
-        self._solve_worker(self.system)
+        self._solve_worker(self.system, self.two_d, self.query_one(ResultsPane).text_width)
 
-    @work(thread=True, exclusive=True, group="solve")
-    def _solve_worker(self, system) -> None:
+    @work(thread=True, exclusive=True, group="solve", description="solving")
+    def _solve_worker(self, system, two_d: bool, width: int) -> None:
+        """Matrix, solution and their printed text, in a child process (this thread only waits)."""
         worker = get_current_worker()
-        matrix = solution = error = None
-        try:
-            matrix = system.matrix()
+
+        def matrix_ready(part) -> None:
             if not worker.is_cancelled:
-                self.call_from_thread(self._solved, system, matrix, None, None, False)
-            solution = system.solve()
+                self.call_from_thread(self._solved, system, part.matrix, part.matrix_text, None, "", None, False)
+        try:
+            done = solver_process.solve_in_process(system, two_d, width, lambda: worker.is_cancelled,
+                                                   matrix_ready)
+            matrix, solution, printed, error = done.matrix, done.solution, done.printed, None
+        except solver_process.Cancelled:
+            return
         except Exception as exc:  # noqa: BLE001 - reported on screen by _solved
-            error = exc
+            matrix, solution, printed, error = self.matrix_form, None, "", exc
         if not worker.is_cancelled:
-            self.call_from_thread(self._solved, system, matrix, solution, error, True)
+            self.call_from_thread(self._solved, system, matrix, "", solution, printed, error, True)
 
     @guarded
-    def _solved(self, system, matrix, solution, error, done: bool) -> None:
+    def _solved(self, system, matrix, matrix_shown: str, solution, printed: str, error, done: bool) -> None:
         if system is not self.system:
             return  # a result for an older system: drop it
         if matrix is not None and self.matrix_form is None:
             self.matrix_form = matrix
-            self.query_one(MatrixPane).show_matrix(matrix)
+            if matrix_shown:
+                self.query_one(MatrixPane).show_text(matrix_shown)
         if not done:
             return
         self.busy_since = None
@@ -251,7 +271,7 @@ class Workbench(App):
             self.report_error(error, "solve")
         else:
             self.solution = solution
-            self.query_one(ResultsPane).show_solution(system, solution, self.two_d)
+            self.query_one(ResultsPane).show_text(printed)
             self.start_audit()
             if self.query_one(TabbedContent).active == "analysis":
                 self.start_analysis()
@@ -271,7 +291,7 @@ class Workbench(App):
         self.busy_since, self.busy_what = time.monotonic(), "analysing"
         self._analysis_worker(self.system, self.solution)
 
-    @work(thread=True, exclusive=True, group="analysis")
+    @work(thread=True, exclusive=True, group="analysis", description="analysing")
     def _analysis_worker(self, system, solution) -> None:
         worker = get_current_worker()
         try:
@@ -304,7 +324,7 @@ class Workbench(App):
         self.query_one(ClaimsPane).show_verdicts(["checking the claims..."])
         self._audit_worker(self.system, self.solution, dict(self.typed_claims))
 
-    @work(thread=True, exclusive=True, group="audit")
+    @work(thread=True, exclusive=True, group="audit", description="checking the claims")
     def _audit_worker(self, system, solution, typed: dict) -> None:
         from ..engine.audit import audit_claims
         worker = get_current_worker()
@@ -595,6 +615,15 @@ class Workbench(App):
                 continue
             yield SystemCommand(key.title, f"key: {key.display}", partial(self.run_action, key.action))
         yield SystemCommand("Theme", "Change the colour theme", self.action_change_theme)
+
+
+def _printed(system, solution, two_d: bool, width: int) -> str:
+    """The results pane's text; a failure to print is shown in the pane, the solution is kept."""
+    try:
+        return results_text(system, solution, two_d, width)
+    except Exception as exc:  # noqa: BLE001 - the solution is still good for the other panes
+        logger().error("printing the results failed", exc_info=exc)
+        return f"! could not print the results: {describe(exc)}"
 
 
 def run(path: str | None) -> int:

@@ -11,6 +11,11 @@ INTRO = ("A x = b after the substitutions so far: one row per equation left to\n
          "solve, one column per unknown (arrow keys scroll when it is wide).")
 
 
+def matrix_text(matrix) -> str:
+    """The pane's whole text (workers call this: a big matrix takes a while to print)."""
+    return "\n".join([INTRO, ""] + matrix_lines(matrix))
+
+
 class MatrixPane(ScrollableContainer):
     """Shows the labelled matrix, or why it is not there yet."""
 
@@ -22,7 +27,10 @@ class MatrixPane(ScrollableContainer):
         yield Static("(no circuit loaded)", id="matrix-text", markup=False)
 
     def show_matrix(self, matrix) -> None:
-        self.query_one("#matrix-text", Static).update("\n".join([INTRO, ""] + matrix_lines(matrix)))
+        self.show_text(matrix_text(matrix))
+
+    def show_text(self, text: str) -> None:
+        self.query_one("#matrix-text", Static).update(text)
 
     def show_note(self, text: str) -> None:
         self.query_one("#matrix-text", Static).update(text)

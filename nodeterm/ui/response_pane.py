@@ -102,9 +102,10 @@ class ResponseView(Vertical):
         self.query_one("#response-plot", Static).update("")
         self._worker(system, solution)
 
-    @work(thread=True, exclusive=True, group="response")
+    @work(thread=True, exclusive=True, group="response", description="frequency response")
     def _worker(self, system, solution) -> None:
         worker = get_current_worker()
+        import plotext  # noqa: F401 - its first import takes ~0.2 s: here, not on the event loop when drawing
         try:
             items, error = responses_of(system, solution), None
         except Exception as exc:  # noqa: BLE001 - shown in place by _computed

@@ -56,6 +56,16 @@ def result_lines(system, solution, two_d: bool = False, width: int = 70) -> list
     return out
 
 
+def results_text(system, solution, two_d: bool = False, width: int = 70) -> str:
+    """The pane's whole text; printing a large result takes a while, so workers call this."""
+    return "\n".join(result_lines(system, solution, two_d, width))
+
+
+def text_width(pane_width: int) -> int:
+    """Columns the 2-D form may use in a pane ``pane_width`` wide."""
+    return max(30, pane_width - 10)
+
+
 class ResultsPane(ScrollableContainer):
     """Shows the solution, or a note (busy, cancelled, singular)."""
 
@@ -67,8 +77,15 @@ class ResultsPane(ScrollableContainer):
         yield Static("(no circuit loaded)", id="results-text", markup=False)
 
     def show_solution(self, system, solution, two_d: bool = False) -> None:
-        width = max(30, self.size.width - 10)
-        self.query_one("#results-text", Static).update("\n".join(result_lines(system, solution, two_d, width)))
+        """Print and show ``solution`` here (the app prints in a worker and calls :meth:`show_text`)."""
+        self.show_text(results_text(system, solution, two_d, self.text_width))
+
+    @property
+    def text_width(self) -> int:
+        return text_width(self.size.width)
+
+    def show_text(self, text: str) -> None:
+        self.query_one("#results-text", Static).update(text)
 
     def show_note(self, text: str) -> None:
         self.query_one("#results-text", Static).update(text)

@@ -130,7 +130,7 @@ class ToleranceView(Vertical):
         self._worker(self.system, samples, seed)
         return True
 
-    @work(thread=True, exclusive=True, group="monte-carlo")
+    @work(thread=True, exclusive=True, group="monte-carlo", description="Monte Carlo")
     def _worker(self, system, samples: int, seed: int) -> None:
         worker = get_current_worker()
 

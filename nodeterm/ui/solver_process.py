@@ -1,0 +1,156 @@
+"""The exact solve in a child process, so that the workbench's event loop is never starved.
+
+A thread worker shares the GIL with the event loop, and FLINT and SymPy hold it for long stretches:
+a 12-stage symbolic op-amp chain solved in a thread stalled the loop for 140 ms, a 16-stage one for
+seconds (measured with ``benchmarks/workbench.py``). So the solve worker (still a thread, which only
+waits) hands the work to a child process: the matrix, the solution and the printed results come back
+pickled (SymPy expressions pickle; the engine's large results pickle as polynomial coefficients).
+Cancelling terminates the child, so an abandoned symbolic solve stops using the CPU at once.
+
+Children are forked from a ``forkserver`` that has imported the engine (forking the workbench
+itself, which runs threads, is unsafe, and a freshly spawned interpreter would import SymPy again
+for every solve). Where no process can be started, the work runs in the calling thread instead.
+"""
+
+from __future__ import annotations
+
+import multiprocessing
+import pickle
+import threading
+from dataclasses import dataclass
+from typing import Callable
+
+POLL_SECONDS = 0.05
+PRELOAD = ["nodeterm.engine", "nodeterm.engine.solve", "nodeterm.engine.fastsolve", "nodeterm.ui.matrix_pane",
+           "nodeterm.ui.results_pane", "nodeterm.ui.solver_process"]
+
+_context = None
+_context_lock = threading.Lock()
+
+
+class Cancelled(Exception):
+    """The caller no longer wants the answer (the child was terminated)."""
+
+
+@dataclass
+class Solved:
+    """What the child sends back: the matrix and its text, then the solution and its text."""
+
+    matrix: object = None
+    matrix_text: str = ""
+    solution: object = None
+    printed: str = ""
+
+
+def solve_and_print(system, two_d: bool, width: int, send: Callable[[str, object], None]) -> None:
+    """Matrix, then solution, each with the text the panes show; ``send`` passes them on."""
+    from .matrix_pane import matrix_text
+    from .results_pane import results_text
+    matrix = system.matrix()
+    send("matrix", Solved(matrix, matrix_text(matrix)))
+    solution = system.solve()
+    try:
+        printed = results_text(system, solution, two_d, width)
+    except Exception as exc:  # noqa: BLE001 - the solution is still good for the other panes
+        from .safety import describe
+        printed = f"! could not print the results: {describe(exc)}"
+    send("solved", Solved(matrix, "", solution, printed))
+
+
+def _child(conn, args) -> None:
+    def send(kind: str, value) -> None:
+        conn.send_bytes(pickle.dumps((kind, value), protocol=pickle.HIGHEST_PROTOCOL))
+    try:
+        solve_and_print(*args, send=send)
+    except BaseException as exc:  # noqa: BLE001 - handed to the parent, which reports it
+        try:
+            pickle.dumps(exc)
+        except Exception:  # noqa: BLE001 - an exception that does not pickle: keep its text
+            exc = RuntimeError(f"{type(exc).__name__}: {exc}")
+        send("error", exc)
+    finally:
+        conn.close()
+
+
+def context():
+    """The multiprocessing context children start from (its server is started on first use)."""
+    global _context
+    with _context_lock:
+        if _context is None:
+            methods = multiprocessing.get_all_start_methods()
+            ctx = multiprocessing.get_context("forkserver" if "forkserver" in methods else "spawn")
+            if ctx.get_start_method() == "forkserver":
+                ctx.set_forkserver_preload(PRELOAD)
+            _context = ctx
+        return _context
+
+
+def warm_up() -> None:
+    """Start the fork server now (in a thread) so that the first solve does not wait for it."""
+    def start() -> None:
+        try:
+            ctx = context()
+            if ctx.get_start_method() == "forkserver":
+                from multiprocessing import forkserver
+                forkserver.ensure_running()
+        except Exception:  # noqa: BLE001 - the first solve will try again, or run in a thread
+            pass
+    threading.Thread(target=start, name="nodeterm-forkserver", daemon=True).start()
+
+
+def solve_in_process(system, two_d: bool, width: int, cancelled: Callable[[], bool],
+                     on_matrix: Callable[[Solved], None]) -> Solved:
+    """Solve ``system`` in a child process; ``on_matrix`` gets the matrix as soon as it is there.
+
+    Raises:
+        Cancelled: ``cancelled()`` became true; the child has been terminated.
+        Exception: whatever the engine raised in the child (InputError, SolveError...).
+    """
+    try:
+        ctx = context()
+        recv, send = ctx.Pipe(duplex=False)
+        proc = ctx.Process(target=_child, args=(send, (system, two_d, width)), daemon=True,
+                           name="nodeterm-solver")
+        proc.start()
+    except (OSError, ValueError, RuntimeError, pickle.PicklingError):
+        return _solve_here(system, two_d, width, cancelled, on_matrix)
+    send.close()
+    try:
+        while True:
+            while not recv.poll(POLL_SECONDS):
+                if cancelled():
+                    raise Cancelled()
+                if not proc.is_alive() and not recv.poll(0):
+                    raise RuntimeError(f"the solver process ended without an answer (exit code {proc.exitcode})")
+            try:
+                kind, value = pickle.loads(recv.recv_bytes())
+            except EOFError:
+                raise RuntimeError(f"the solver process ended without an answer (exit code {proc.exitcode})") \
+                    from None
+            if kind == "error":
+                raise value
+            if kind == "matrix":
+                on_matrix(value)
+                continue
+            return value
+    finally:
+        recv.close()
+        if proc.is_alive():
+            proc.terminate()
+        proc.join(timeout=1)
+
+
+def _solve_here(system, two_d, width, cancelled, on_matrix) -> Solved:
+    """The same work in the calling thread (no child process could be started)."""
+    out: list[Solved] = []
+
+    def send(kind: str, value: Solved) -> None:
+        if kind == "matrix":
+            if not cancelled():
+                on_matrix(value)
+        else:
+            out.append(value)
+    solve_and_print(system, two_d, width, send)
+    if cancelled():
+        raise Cancelled()
+    return out[-1]

@@ -1,0 +1,76 @@
+"""The workbench's solve in a child process gives what the same solve gives in this process.
+
+References: the in-process ``System.solve`` (itself checked against ``sympy.solve`` in the engine
+tests) and SymPy's own ``cancel`` for the large results' values.
+"""
+
+from __future__ import annotations
+
+import pickle
+import time
+
+import pytest
+import sympy
+
+from nodeterm.engine import SolveError, build_system, parse_circuit
+from nodeterm.ui import solver_process
+from nodeterm.ui.matrix_pane import matrix_text
+from nodeterm.ui.results_pane import results_text
+
+
+def chain(stages: int) -> str:
+    """RC low-pass + non-inverting gain stages with shared symbols (a demo of our own)."""
+    lines = ['title = "gain chain"', "[parameters]", 'Vin = ""', 'R = "10k"', 'C = "10n"', 'Rf = "22k"',
+             'Rg = "10k"', "[parts]", 'VS = { kind = "vsource", nodes = ["in", "gnd"], value = "Vin" }']
+    prev = "in"
+    for k in range(1, stages + 1):
+        lines += [f'RS{k} = {{ kind = "resistor", nodes = ["{prev}", "a{k}"], value = "R" }}',
+                  f'CS{k} = {{ kind = "capacitor", nodes = ["a{k}", "gnd"], value = "C" }}',
+                  f'U{k} = {{ kind = "opamp", plus = "a{k}", minus = "g{k}", out = "o{k}" }}',
+                  f'RF{k} = {{ kind = "resistor", nodes = ["o{k}", "g{k}"], value = "Rf" }}',
+                  f'RG{k} = {{ kind = "resistor", nodes = ["g{k}", "gnd"], value = "Rg" }}']
+        prev = f"o{k}"
+    return "\n".join(lines) + "\n"
+
+
+def test_large_results_survive_pickling():
+    system = build_system(parse_circuit(chain(10)))
+    solution = system.solve()
+    large = [v for v in solution.node_voltages.values() if getattr(v, "is_large", False)]
+    assert large, "the 10-stage chain should give results kept as polynomials"
+    back = pickle.loads(pickle.dumps(solution))
+    for node, v in solution.node_voltages.items():
+        w = back.node_voltages[node]
+        assert str(w) == str(v)
+        assert sympy.cancel(sympy.sympify(w) - sympy.sympify(v)) == 0
+
+
+def test_child_process_gives_the_same_text_as_this_process():
+    system = build_system(parse_circuit(chain(4)))
+    seen = []
+    done = solver_process.solve_in_process(system, False, 70, lambda: False, seen.append)
+    assert seen and seen[0].matrix_text == matrix_text(system.matrix())
+    assert done.printed == results_text(system, system.solve(), False, 70)
+    assert done.solution.node_voltages.keys() == system.solve().node_voltages.keys()
+
+
+def test_engine_errors_come_back_as_themselves():
+    text = ('[parts]\nVS = { kind = "vsource", nodes = ["a", "gnd"], value = "1" }\n'
+            'R1 = { kind = "resistor", nodes = ["a", "out"], value = "1k" }\n'
+            'I1 = { kind = "isource", nodes = ["out", "x"], value = "1m" }\n'
+            'I2 = { kind = "isource", nodes = ["x", "gnd"], value = "1m" }\n')  # x: only current sources
+    system = build_system(parse_circuit(text))
+    with pytest.raises(SolveError) as local:
+        system.solve()
+    with pytest.raises(type(local.value)) as remote:
+        solver_process.solve_in_process(system, False, 70, lambda: False, lambda part: None)
+    assert str(remote.value) == str(local.value)
+
+
+def test_cancelling_terminates_the_child():
+    system = build_system(parse_circuit(chain(4)))
+    start = time.monotonic()
+    with pytest.raises(solver_process.Cancelled):
+        solver_process.solve_in_process(system, False, 70, lambda: time.monotonic() - start > 0.01,
+                                        lambda part: None)
+    assert not [p for p in __import__("multiprocessing").active_children() if p.name == "nodeterm-solver"]
