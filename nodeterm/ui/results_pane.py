@@ -20,12 +20,24 @@ HEADINGS = {
 }
 
 
+MAX_VALUE_CHARS = 2000
+"""Characters of one result shown in the pane; a longer one is cut (Textual lays out every line of
+the pane, and a 16-stage symbolic chain has results of megabytes). The exports keep it whole."""
+
+
 def _value(expr, unit: str, two_d: bool, width: int) -> str:
-    if two_d:
+    if two_d and not getattr(expr, "is_large", False):  # a large result never fits in 2-D
         text = render.expression(expr, True, width)
         if "\n" in text:
             return "\n" + "\n".join("      " + ln for ln in text.splitlines())
-    return value_text(expr, unit)
+    return _cut(value_text(expr, unit))
+
+
+def _cut(text: str) -> str:
+    if len(text) <= MAX_VALUE_CHARS:
+        return text
+    return (text[:MAX_VALUE_CHARS] + f" ... (cut: {len(text):,} characters in all; "
+            "e exports the whole result)")
 
 
 def result_lines(system, solution, two_d: bool = False, width: int = 70) -> list[str]:

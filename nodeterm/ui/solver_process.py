@@ -21,6 +21,8 @@ from dataclasses import dataclass
 from typing import Callable
 
 POLL_SECONDS = 0.05
+IN_CHILD = True
+"""False runs the work in the calling thread (tests that patch the engine in this process use it)."""
 PRELOAD = ["nodeterm.engine", "nodeterm.engine.solve", "nodeterm.engine.fastsolve", "nodeterm.ui.matrix_pane",
            "nodeterm.ui.results_pane", "nodeterm.ui.solver_process"]
 
@@ -106,6 +108,8 @@ def solve_in_process(system, two_d: bool, width: int, cancelled: Callable[[], bo
         Cancelled: ``cancelled()`` became true; the child has been terminated.
         Exception: whatever the engine raised in the child (InputError, SolveError...).
     """
+    if not IN_CHILD:
+        return _solve_here(system, two_d, width, cancelled, on_matrix)
     try:
         ctx = context()
         recv, send = ctx.Pipe(duplex=False)

@@ -74,3 +74,68 @@ def test_cancelling_terminates_the_child():
         solver_process.solve_in_process(system, False, 70, lambda: time.monotonic() - start > 0.01,
                                         lambda part: None)
     assert not [p for p in __import__("multiprocessing").active_children() if p.name == "nodeterm-solver"]
+
+
+def own_symbols_chain(stages: int) -> str:
+    """The same chain with every part its own symbol: its exact solve takes seconds."""
+    lines = ['title = "gain chain, every part its own symbol"', "[parameters]", 'Vin = ""']
+    parts = ['VS = { kind = "vsource", nodes = ["in", "gnd"], value = "Vin" }']
+    prev = "in"
+    for k in range(1, stages + 1):
+        lines += [f'R{k} = "{k}k"', f'C{k} = "10n"', f'Rf{k} = "22k"', f'Rg{k} = "10k"']
+        parts += [f'RS{k} = {{ kind = "resistor", nodes = ["{prev}", "a{k}"], value = "R{k}" }}',
+                  f'CS{k} = {{ kind = "capacitor", nodes = ["a{k}", "gnd"], value = "C{k}" }}',
+                  f'U{k} = {{ kind = "opamp", plus = "a{k}", minus = "g{k}", out = "o{k}" }}',
+                  f'RF{k} = {{ kind = "resistor", nodes = ["o{k}", "g{k}"], value = "Rf{k}" }}',
+                  f'RG{k} = {{ kind = "resistor", nodes = ["g{k}", "gnd"], value = "Rg{k}" }}']
+        prev = f"o{k}"
+    return "\n".join(lines + ["[parts]"] + parts) + "\n"
+
+
+def solver_children():
+    import multiprocessing
+    return [p for p in multiprocessing.active_children() if p.name == "nodeterm-solver"]
+
+
+async def test_cancel_in_the_workbench_stops_the_solver_process(tmp_path):
+    from nodeterm.ui.app import Workbench
+    from wb_helpers import settle, text_of
+    path = tmp_path / "chain.toml"
+    path.write_text(own_symbols_chain(16))
+    app = Workbench(str(path), poll=False)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause(0.5)
+        assert "BUSY solving" in text_of(app, "#status")
+        await pilot.press("n")                       # the interface answers while the child solves
+        assert "Step 2 of" in text_of(app, "#step-head")
+        await pilot.press("c")
+        assert "cancelled" in text_of(app, "#results-text")
+        for _ in range(40):                          # the waiting thread terminates the child
+            await pilot.pause(0.05)
+            if not solver_children():
+                break
+        assert not solver_children()
+        await pilot.press("k")                       # all values known: a quick numeric solve
+        await settle(pilot, app)
+        assert app.solution is not None and "Node voltages" in text_of(app, "#results-text")
+
+
+async def test_quit_during_a_solve_in_the_child_exits_at_once(tmp_path):
+    from nodeterm.ui.app import Workbench
+    from wb_helpers import text_of
+    path = tmp_path / "chain.toml"
+    path.write_text(own_symbols_chain(16))
+    app = Workbench(str(path), poll=False)
+    async with app.run_test(size=(80, 24)) as pilot:
+        await pilot.pause(0.5)
+        assert "BUSY" in text_of(app, "#status")
+        start = time.monotonic()
+        await pilot.press("q")
+        await pilot.pause()
+    assert app.return_code == 0
+    assert time.monotonic() - start < 5             # not the tens of seconds the solve would take
+    for _ in range(40):                              # and the child does not go on using the CPU
+        if not solver_children():
+            break
+        time.sleep(0.05)
+    assert not solver_children()

@@ -5,6 +5,7 @@ from __future__ import annotations
 import threading
 
 from nodeterm.engine.system import System
+from nodeterm.ui import solver_process
 from nodeterm.ui.app import Workbench
 from nodeterm.ui.steps_pane import StepsPane
 from wb_helpers import settle, text_of
@@ -41,6 +42,7 @@ async def test_long_solve_shows_busy_and_can_be_cancelled(kiln, monkeypatch):
         release.wait(10)
         return real(self)
     monkeypatch.setattr(System, "solve", slow)
+    monkeypatch.setattr(solver_process, "IN_CHILD", False)  # the patched solve exists in this process only
     app = Workbench(str(kiln), poll=False)
     try:
         async with app.run_test(size=SIZE) as pilot:
@@ -88,6 +90,7 @@ async def test_quit_during_a_long_solve_does_not_wait_for_it(kiln, monkeypatch):
         release.wait(30)
         raise RuntimeError("abandoned")
     monkeypatch.setattr(System, "solve", stuck)
+    monkeypatch.setattr(solver_process, "IN_CHILD", False)  # the patched solve exists in this process only
     app = Workbench(str(kiln), poll=False)
     try:
         async with app.run_test(size=SIZE) as pilot:
