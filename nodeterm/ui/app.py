@@ -299,7 +299,10 @@ class Workbench(App):
     def _analysis_worker(self, system, solution) -> None:
         worker = get_current_worker()
         try:
-            lines = analysis_lines(system, solution)
+            lines = solver_process.call_in_child(analysis_lines, system, solution,
+                                                 cancelled=lambda: worker.is_cancelled)
+        except solver_process.Cancelled:
+            return
         except Exception as exc:  # noqa: BLE001
             lines = [f"! analyses failed: {describe(exc)}"]
         if not worker.is_cancelled:

@@ -104,10 +104,13 @@ class ResponseView(Vertical):
 
     @work(thread=True, exclusive=True, group="response", description="frequency response")
     def _worker(self, system, solution) -> None:
+        from .solver_process import Cancelled, call_in_child
         worker = get_current_worker()
         import plotext  # noqa: F401 - its first import takes ~0.2 s: here, not on the event loop when drawing
-        try:
-            items, error = responses_of(system, solution), None
+        try:  # in a child process: SymPy and FLINT would hold the GIL, and the event loop with it
+            items, error = call_in_child(responses_of, system, solution, cancelled=lambda: worker.is_cancelled), None
+        except Cancelled:
+            return
         except Exception as exc:  # noqa: BLE001 - shown in place by _computed
             items, error = [], exc
         if not worker.is_cancelled:

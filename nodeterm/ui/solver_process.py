@@ -1,4 +1,4 @@
-"""The exact solve in a child process, so that the workbench's event loop is never starved.
+"""The exact solve (and the analyses) in a child process, so the workbench's event loop is never starved.
 
 A thread worker shares the GIL with the event loop, and FLINT and SymPy hold it for long stretches:
 a 12-stage symbolic op-amp chain solved in a thread stalled the loop for 140 ms, a 16-stage one for
@@ -6,6 +6,7 @@ seconds (measured with ``benchmarks/workbench.py``). So the solve worker (still 
 waits) hands the work to a child process: the matrix, the solution and the printed results come back
 pickled (SymPy expressions pickle; the engine's large results pickle as polynomial coefficients).
 Cancelling terminates the child, so an abandoned symbolic solve stops using the CPU at once.
+The analyses of a solved system (:func:`call_in_child`) run the same way.
 
 Children are forked from a ``forkserver`` that has imported the engine (forking the workbench
 itself, which runs threads, is unsafe, and a freshly spawned interpreter would import SymPy again
@@ -23,8 +24,9 @@ from typing import Callable
 POLL_SECONDS = 0.05
 IN_CHILD = True
 """False runs the work in the calling thread (tests that patch the engine in this process use it)."""
-PRELOAD = ["nodeterm.engine", "nodeterm.engine.solve", "nodeterm.engine.fastsolve", "nodeterm.ui.matrix_pane",
-           "nodeterm.ui.results_pane", "nodeterm.ui.solver_process"]
+PRELOAD = ["nodeterm.engine", "nodeterm.engine.solve", "nodeterm.engine.fastsolve", "nodeterm.engine.analysis.transfer",
+           "nodeterm.ui.matrix_pane", "nodeterm.ui.results_pane", "nodeterm.ui.analysis_pane",
+           "nodeterm.ui.response_pane", "nodeterm.ui.solver_process"]
 
 _context = None
 _context_lock = threading.Lock()
@@ -59,11 +61,11 @@ def solve_and_print(system, two_d: bool, width: int, send: Callable[[str, object
     send("solved", Solved(matrix, "", solution, printed))
 
 
-def _child(conn, args) -> None:
+def _child(conn, fn, args) -> None:
     def send(kind: str, value) -> None:
         conn.send_bytes(pickle.dumps((kind, value), protocol=pickle.HIGHEST_PROTOCOL))
     try:
-        solve_and_print(*args, send=send)
+        fn(*args, send=send)
     except BaseException as exc:  # noqa: BLE001 - handed to the parent, which reports it
         try:
             pickle.dumps(exc)
@@ -72,6 +74,10 @@ def _child(conn, args) -> None:
         send("error", exc)
     finally:
         conn.close()
+
+
+def _returning(fn, *args, send) -> None:
+    send("done", fn(*args))
 
 
 def context():
@@ -108,16 +114,43 @@ def solve_in_process(system, two_d: bool, width: int, cancelled: Callable[[], bo
         Cancelled: ``cancelled()`` became true; the child has been terminated.
         Exception: whatever the engine raised in the child (InputError, SolveError...).
     """
-    if not IN_CHILD:
-        return _solve_here(system, two_d, width, cancelled, on_matrix)
+    if IN_CHILD:
+        try:
+            return _run(solve_and_print, (system, two_d, width), cancelled, lambda kind, part: on_matrix(part))
+        except _NoChild:
+            pass
+    return _solve_here(system, two_d, width, cancelled, on_matrix)
+
+
+def call_in_child(fn: Callable, *args, cancelled: Callable[[], bool]):
+    """``fn(*args)`` in a child process (``fn`` a module-level function, arguments and result picklable).
+
+    Raises:
+        Cancelled: ``cancelled()`` became true; the child has been terminated.
+    """
+    if IN_CHILD:
+        try:
+            return _run(_returning, (fn,) + args, cancelled, None)
+        except _NoChild:
+            pass
+    result = fn(*args)
+    if cancelled():
+        raise Cancelled()
+    return result
+
+
+class _NoChild(Exception):
+    """No child process could be started here."""
+
+
+def _run(fn, args, cancelled, on_part):
     try:
         ctx = context()
         recv, send = ctx.Pipe(duplex=False)
-        proc = ctx.Process(target=_child, args=(send, (system, two_d, width)), daemon=True,
-                           name="nodeterm-solver")
+        proc = ctx.Process(target=_child, args=(send, fn, args), daemon=True, name="nodeterm-solver")
         proc.start()
-    except (OSError, ValueError, RuntimeError, pickle.PicklingError):
-        return _solve_here(system, two_d, width, cancelled, on_matrix)
+    except (OSError, ValueError, RuntimeError, pickle.PicklingError) as exc:
+        raise _NoChild() from exc
     send.close()
     try:
         while True:
@@ -133,10 +166,10 @@ def solve_in_process(system, two_d: bool, width: int, cancelled: Callable[[], bo
                     from None
             if kind == "error":
                 raise value
-            if kind == "matrix":
-                on_matrix(value)
-                continue
-            return value
+            if kind in ("done", "solved"):
+                return value
+            if on_part is not None and not cancelled():
+                on_part(kind, value)
     finally:
         recv.close()
         if proc.is_alive():
