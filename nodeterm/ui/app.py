@@ -53,6 +53,7 @@ class Workbench(App):
 
     def __init__(self, path: str | None = None, poll: bool = True) -> None:
         super().__init__()
+        solver_process.start_server()  # before Textual takes over sys.stderr
         self.start_path = path
         self.poll = poll
         self.session = Session()
@@ -88,7 +89,6 @@ class Workbench(App):
 
     def on_mount(self) -> None:
         threads.install()
-        solver_process.warm_up()
         # Everything alive now (modules, SymPy's and Textual's own objects, these widgets) lives as long
         # as the app: keep it out of the collector's full passes, which otherwise pause the loop ~0.1 s.
         gc.freeze()

@@ -93,17 +93,20 @@ def context():
         return _context
 
 
-def warm_up() -> None:
-    """Start the fork server now (in a thread) so that the first solve does not wait for it."""
-    def start() -> None:
-        try:
-            ctx = context()
-            if ctx.get_start_method() == "forkserver":
-                from multiprocessing import forkserver
-                forkserver.ensure_running()
-        except Exception:  # noqa: BLE001 - the first solve will try again, or run in a thread
-            pass
-    threading.Thread(target=start, name="nodeterm-forkserver", daemon=True).start()
+def start_server() -> None:
+    """Start the fork server (and multiprocessing's resource tracker) now.
+
+    Call it before Textual runs: while the app runs, ``sys.stderr`` is Textual's capture object,
+    whose file descriptor the resource tracker cannot inherit ("bad value(s) in fds_to_keep"), and
+    every child would fail to start. Starting only spawns the server: it imports the engine on its own.
+    """
+    try:
+        ctx = context()
+        if ctx.get_start_method() == "forkserver":
+            from multiprocessing import forkserver
+            forkserver.ensure_running()
+    except Exception:  # noqa: BLE001 - then the work runs in the worker thread (see _NoChild)
+        pass
 
 
 def solve_in_process(system, two_d: bool, width: int, cancelled: Callable[[], bool],

@@ -45,6 +45,12 @@ def test_large_results_survive_pickling():
         assert sympy.cancel(sympy.sympify(w) - sympy.sympify(v)) == 0
 
 
+def test_the_work_runs_in_another_process():
+    import os
+    solver_process.start_server()
+    assert solver_process.call_in_child(os.getpid, cancelled=lambda: False) != os.getpid()
+
+
 def test_child_process_gives_the_same_text_as_this_process():
     system = build_system(parse_circuit(chain(4)))
     seen = []
@@ -106,6 +112,7 @@ async def test_cancel_in_the_workbench_stops_the_solver_process(tmp_path):
     async with app.run_test(size=(80, 24)) as pilot:
         await pilot.pause(0.5)
         assert "BUSY solving" in text_of(app, "#status")
+        assert solver_children()                     # solving in a child, not in this process
         await pilot.press("n")                       # the interface answers while the child solves
         assert "Step 2 of" in text_of(app, "#step-head")
         await pilot.press("c")
