@@ -13,6 +13,8 @@ Cases (all circuits generated here, none read from disk except through the norma
   our solve against SciPy's ``splu`` on the same matrix; peak memory of a fresh process.
 * Monte Carlo, 100,000 samples of a 20-node circuit: batched solve against a per-sample
   ``numpy.linalg.solve`` loop (timed on a slice, scaled).
+* The workbench on a 50-node op-amp chain (``benchmarks/workbench.py``): time to the first screen
+  and the event loop's longest stall, against the same walk with the solve on the event loop.
 
 Speed goals are ratios printed here, never timed assertions in tests.
 """
@@ -37,6 +39,9 @@ from nodeterm.engine import build_system, load_circuit, parse_circuit  # noqa: E
 from nodeterm.engine.numeric import NumericModel  # noqa: E402
 from nodeterm.present.format import expr_text  # noqa: E402
 from nodeterm.present.text import report  # noqa: E402
+
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+import workbench  # noqa: E402 - benchmarks/workbench.py, next to this file
 
 
 # --- circuits ---------------------------------------------------------------------------------
@@ -290,13 +295,18 @@ def main() -> None:
     opamp_circuits(args.quick)
     ours_solve, peer = numeric_mesh()
     monte_carlo()
+    wb = workbench.measure(args.quick, row)
+    first = max(ours["first_screen"] for ours, _ in wb.values())
+    stall = max(ours["stall"] for ours, _ in wb.values())
+    ui = (f"; workbench, 50 nodes: first screen {first:.2f} s (target < 1 s), longest event-loop stall "
+          f"{stall * 1000:.0f} ms (target < 100 ms)")
     print("-" * 120)
     if headline:
         print(f"headline: 9-section symbolic ladder {headline:.0f}x faster than sympy.solve "
-              f"(target >= 100x); 10k-node solve {ours_solve / peer:.2f}x SciPy's splu time (target <= 2x)")
+              f"(target >= 100x); 10k-node solve {ours_solve / peer:.2f}x SciPy's splu time (target <= 2x)" + ui)
     else:
-        print(f"headline: 10k-node solve {ours_solve / peer:.2f}x SciPy's splu time (target <= 2x); "
-              "run without --quick for the 9-section ratio against sympy.solve")
+        print(f"headline: 10k-node solve {ours_solve / peer:.2f}x SciPy's splu time (target <= 2x)" + ui
+              + "; run without --quick for the 9-section ratio against sympy.solve")
 
 
 if __name__ == "__main__":
