@@ -2,8 +2,12 @@
 
 The App wires panes to the :class:`~.session.Session`; every action is
 guarded (:mod:`.safety`) so that a failure shows a message, is logged, and
-leaves the last good state on screen. Solving runs in a thread worker that
-can be cancelled; its results are dropped when they belong to an older system.
+leaves the last good state on screen. Solving (with the printing of the results)
+and the analyses run in a child process driven by a thread worker
+(:mod:`.solver_process`), so SymPy and FLINT never hold the GIL against the event
+loop; cancelling terminates the child, and results for an older system are dropped.
+Every ``@work`` has a ``description``: without one Textual builds it with ``repr()``
+of the arguments (a whole solution) on the event loop.
 """
 
 from __future__ import annotations
