@@ -9,12 +9,15 @@ and at one frequency, and the -3 dB bandwidth of each.
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
+from typing import TYPE_CHECKING
 
 import sympy
 
 from ..system import System, build_system
 from ..symbols import param, s
-from .transfer import Bandwidth, bandwidth_3db, transfer_function
+
+if TYPE_CHECKING:
+    from .transfer import Bandwidth
 
 REAL_KEYS = ("gbw", "rin", "rout")
 DEFAULT_FREQUENCY = 1000.0
@@ -84,6 +87,7 @@ class ModelComparison:
 def _dc(expr: sympy.Expr) -> sympy.Expr:
     if not expr.has(s):
         return expr
+    from .transfer import transfer_function  # NumPy only when a response is asked for
     tf = transfer_function(expr)
     return tf.dc_gain
 
@@ -96,6 +100,7 @@ def _value_at(expr: sympy.Expr, f_hz: float) -> complex | None:
 def _bandwidth(expr: sympy.Expr) -> Bandwidth | None:
     if not expr.has(s) or expr.free_symbols - {s}:
         return None
+    from .transfer import bandwidth_3db, transfer_function
     return bandwidth_3db(transfer_function(expr))
 
 
