@@ -63,6 +63,7 @@ from dataclasses import dataclass, field
 
 import sympy
 
+from .symbols import as_expr
 from .claim_forms import _ONE, _linear, _r, _t, _zero
 from .closest_equation import HELPER_KINDS, PRIMARY_KINDS, _closest
 from .expr import ExpressionError, parse_expression
@@ -147,7 +148,7 @@ class Auditor:
         self.currents = {I(p.id): p.current(ctx, None) for p in c.parts if p.branch(ref) is None}
         self.xs = list(system.unknowns)
         self.equations = [e.subs(self.pvals) for e in system.equations]
-        self.elim = {k: sympy.sympify(v).xreplace(self.pvals) for k, v in system.eliminated.items()}
+        self.elim = {k: as_expr(v).xreplace(self.pvals) for k, v in system.eliminated.items()}
         self.reduced_xs = list(system.reduced_unknowns)
         self.step_of: dict[str, int] = {}
         for i, step in enumerate(system.steps, start=1):

@@ -28,6 +28,8 @@ True
 from __future__ import annotations
 
 import sympy
+
+from .symbols import as_expr
 from sympy.solvers.solveset import NonlinearError
 
 _ONE = "1"  # key of the constant coordinate in a linear form
@@ -48,7 +50,7 @@ def _zero(expr) -> bool:
 
 def _linear(expr, xs) -> dict | None:
     """{unknown: coefficient, "1": constant} of an expression linear in ``xs``; None if not linear."""
-    expr = sympy.sympify(expr)
+    expr = as_expr(expr)
     if not xs:
         return {_ONE: sympy.cancel(expr)} if not _zero(expr) else {}
     try:

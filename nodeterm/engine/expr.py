@@ -38,6 +38,7 @@ from typing import Callable
 
 import sympy
 
+from .symbols import as_expr
 from .errors import InputError
 
 MAX_LENGTH = 10_000
@@ -388,7 +389,7 @@ def term_bound(expr: sympy.Expr, known: dict | None = None) -> tuple[int, int]:
             num = min(cap, num * n)
         return (num, den)
 
-    return go(sympy.sympify(expr))
+    return go(as_expr(expr))
 
 
 def _no_names(name: str) -> None:

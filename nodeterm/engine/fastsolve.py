@@ -26,6 +26,8 @@ same answers.
 from __future__ import annotations
 
 import sympy
+
+from .symbols import as_expr
 from sympy.polys.polyutils import _sort_gens
 
 from .fraction_free import cramer, determinant  # noqa: F401 - determinant is imported from here too
@@ -165,7 +167,7 @@ class PolyField:
             cache[e] = out
             return out
 
-        return go(sympy.sympify(expr))
+        return go(as_expr(expr))
 
     def reduce(self, a: tuple) -> tuple:
         """Lowest terms over the integers, the denominator's leading coefficient positive."""
@@ -434,7 +436,7 @@ def _symbols_and_atoms(exprs) -> tuple[set, set]:
     syms: set = set()
     atoms: set = set()
     for e in exprs:
-        e = sympy.sympify(e)
+        e = as_expr(e)
         if e.has(sympy.Float):
             raise Unsupported("floating-point numbers")
         syms |= e.free_symbols

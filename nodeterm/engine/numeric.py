@@ -28,6 +28,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import sympy
 
+from .symbols import as_expr
 from .errors import InputError
 from .parts import CurrentSource, VoltageSource, _Passive
 from .symbols import I, V, param, s
@@ -89,7 +90,7 @@ class NumericModel:
         self.reference = ref
         known = circuit.known_values()
         if values:
-            known.update({k: sympy.sympify(v) for k, v in values.items()})
+            known.update({k: as_expr(v) for k, v in values.items()})
         self.values = known
         self.subs = {param(k): v for k, v in known.items()}
         nodes = [n for n in circuit.nodes if n != ref]
@@ -269,7 +270,7 @@ class NumericModel:
 
     def _evaluate(self, expr, env: dict, s_value: complex):
         e = expr.xreplace(self.subs).xreplace({s: s_value})
-        e = e.xreplace({k: sympy.sympify(complex(v)) for k, v in env.items() if k in e.free_symbols})
+        e = e.xreplace({k: as_expr(complex(v)) for k, v in env.items() if k in e.free_symbols})
         try:
             return complex(e)
         except (TypeError, ZeroDivisionError):

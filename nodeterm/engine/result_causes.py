@@ -27,6 +27,7 @@ import random
 
 import sympy
 
+from .symbols import as_expr
 from .claim_forms import _r, _t, _zero
 
 _NUMERIC_POINTS = 6
@@ -125,7 +126,7 @@ def _example(lhs, rhs, sol) -> dict | None:
     used = sorted((lhs.free_symbols | rhs.free_symbols) & set(sol), key=str)
     syms = set(L.free_symbols | Rr.free_symbols)
     for u in used:
-        syms |= sympy.sympify(sol[u]).free_symbols
+        syms |= as_expr(sol[u]).free_symbols
     syms = sorted(syms, key=str)
     primes = [2, 3, 5, 7, 11, 13, 17, 19, 23, 29, 31, 37]
     for shift in range(4):

@@ -15,6 +15,8 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import sympy
+
+from .symbols import as_expr
 from sympy.polys.matrices import DomainMatrix
 from sympy.polys.matrices.exceptions import DMNonInvertibleMatrixError
 
@@ -59,7 +61,7 @@ def canonical(expr: sympy.Expr) -> sympy.Expr:
     >>> canonical(sympy.Rational(1, 250) + 2*R/125)
     (4*R + 1)/250
     """
-    expr = sympy.sympify(expr)
+    expr = as_expr(expr)
     if expr.is_Number:
         return expr
     expr = sympy.cancel(sympy.together(expr))
@@ -248,7 +250,7 @@ def solve_system_sympy(system) -> Solution:
     for name, item in circuit.find.items():
         find[name] = canonical(item.expr.xreplace(full).xreplace(cmap).xreplace(pvals))
     everything = list(voltages.values()) + list(currents.values()) + list(find.values())
-    reactive = any(sympy.sympify(v).has(s) for v in everything)
+    reactive = any(as_expr(v).has(s) for v in everything)
     return Solution(voltages, currents, find, reactive, dict(system.values))
 
 

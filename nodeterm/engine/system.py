@@ -27,6 +27,7 @@ from dataclasses import dataclass, replace
 
 import sympy
 
+from .symbols import as_expr
 from .equation import KCL_KINDS, OPAMP_KINDS, Equation, Step, Term  # noqa: F401 - imported from here too
 from .errors import InputError, Warning
 from .expr import ExpressionError, parse_expression
@@ -131,7 +132,7 @@ class System:
             raise InputError(f"unknown parameter {name!r}",
                              hint="parameters: " + (", ".join(params) or "(none)"), file=self.circuit.path)
         if isinstance(raw, sympy.Basic):
-            value = sympy.sympify(raw)  # already a SymPy object, never text
+            value = as_expr(raw)  # already a SymPy object, never text
         elif isinstance(raw, bool):
             raise InputError(f"value for {name} must be a number or an expression", file=self.circuit.path)
         elif isinstance(raw, int):

@@ -23,6 +23,7 @@ import threading
 import numpy as np
 import sympy
 
+from ..engine.symbols import as_expr
 from ..engine.analysis.cautions import LINEAR_NOTE
 from .format import eng, expr_text
 
@@ -40,7 +41,7 @@ def _num(value, unit: str = "", ascii_only: bool = False) -> str:
         return "-"
     if isinstance(value, (int, float, np.floating)):
         return _real(float(value), unit, ascii_only)
-    e = sympy.sympify(value)
+    e = as_expr(value)
     if e in (sympy.zoo, sympy.oo):
         return "infinite"
     if e.is_number and e.is_real:
@@ -52,7 +53,7 @@ def _num(value, unit: str = "", ascii_only: bool = False) -> str:
 
 
 def _exact_and_number(value, unit: str = "", ascii_only: bool = False) -> str:
-    e = sympy.sympify(value)
+    e = as_expr(value)
     if e in (sympy.zoo, sympy.oo, -sympy.oo):
         return "infinite"
     text = expr_text(e)
@@ -66,7 +67,7 @@ def _root_text(r) -> str:
         if abs(r.imag) < 1e-12 * max(abs(r), 1e-300):
             return f"{r.real:.6g}"
         return f"{r.real:.6g} {'+' if r.imag >= 0 else '-'} {abs(r.imag):.6g}j"
-    e = sympy.sympify(r)
+    e = as_expr(r)
     if e.is_number:
         z = complex(e)
         exact = expr_text(e)
@@ -346,7 +347,7 @@ def warning_lines(warnings) -> list[str]:
 
 # --- JSON-ready data ----------------------------------------------------------------------------------
 def _json_num(e):
-    e = sympy.sympify(e)
+    e = as_expr(e)
     if e in (sympy.zoo, sympy.oo):
         return "oo"
     return expr_text(e)

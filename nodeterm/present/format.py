@@ -11,6 +11,7 @@ import math
 
 import sympy
 
+from ..engine.symbols import as_expr
 _PREFIXES = [(12, "T"), (9, "G"), (6, "M"), (3, "k"), (0, ""), (-3, "m"), (-6, "µ"), (-9, "n"), (-12, "p"),
              (-15, "f")]
 
@@ -74,7 +75,7 @@ def equation_text(e, ascii_only: bool = False) -> str:
 def is_numeric(expr) -> bool:
     if getattr(expr, "is_large", False):  # a large lazy result (engine.fastsolve.LargeExpr): never a number
         return False
-    expr = sympy.sympify(expr)
+    expr = as_expr(expr)
     return bool(expr.is_number) and not expr.has(sympy.zoo, sympy.nan)
 
 
@@ -85,9 +86,9 @@ def value_text(expr, unit: str = "", ascii_only: bool = False) -> str:
     '-51/10000 (≈ -5.1 mA)'
     """
     text = expr_text(expr)
-    if is_numeric(expr) and sympy.sympify(expr).is_real:
+    if is_numeric(expr) and as_expr(expr).is_real:
         approx = eng(float(expr), unit, ascii_only=ascii_only) if unit else f"{float(expr):.4g}"
-        if sympy.sympify(expr).is_Integer and abs(int(expr)) < 1000:
+        if as_expr(expr).is_Integer and abs(int(expr)) < 1000:
             return f"{text} {unit}".rstrip()
         return f"{text} ({'~' if ascii_only else '≈'} {approx})"
     return text

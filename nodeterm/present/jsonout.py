@@ -9,6 +9,7 @@ import json
 
 import sympy
 
+from ..engine.symbols import as_expr
 from .format import expr_text
 
 
@@ -60,7 +61,7 @@ def analysis_dict(system, solution) -> dict:
 
 
 def _num(e) -> str:
-    e = sympy.sympify(e)
+    e = as_expr(e)
     if e.is_number:
         return repr(float(e)) if e.is_real else str(complex(e))
     return expr_text(e)

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import sympy
 
+from ..engine.symbols import as_expr
 from .text import to_ascii
 
 _SPECIAL = {"\\": r"\textbackslash{}", "&": r"\&", "%": r"\%", "$": r"\$", "#": r"\#", "_": r"\_",
@@ -27,7 +28,7 @@ def escape(text: str) -> str:
 
 def tex(expr) -> str:
     """SymPy's LaTeX for an expression."""
-    return sympy.latex(sympy.sympify(expr))
+    return sympy.latex(as_expr(expr))
 
 
 def _align(rows: list[tuple[str, str, str]]) -> list[str]:

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import sympy
 
+from ..symbols import as_expr
 from ..errors import Warning
 from ..symbols import param
 
@@ -50,7 +51,7 @@ def voltage_caution(volts: float, what: str, part: str = "") -> Warning | None:
 def _number(expr, subs: dict) -> float | None:
     if expr is None or getattr(expr, "is_large", False):  # a large lazy result is never a number
         return None
-    expr = sympy.sympify(expr).xreplace(subs)
+    expr = as_expr(expr).xreplace(subs)
     if expr.is_number and expr.is_extended_real:
         return float(expr)
     return None

@@ -17,6 +17,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 import sympy
 
+from ..symbols import as_expr
 from ..errors import InputError, Warning
 from ..symbols import param, s
 from .realopamp import prepared
@@ -53,19 +54,19 @@ class OpAmpLimits:
 
 
 def _num(e) -> float | None:
-    e = sympy.sympify(e)
+    e = as_expr(e)
     if e.is_number and e.is_extended_real:
         return float(e)
     return None
 
 
 def _at_dc(e: sympy.Expr) -> sympy.Expr:
-    e = sympy.sympify(e)
+    e = as_expr(e)
     return transfer_function(e).dc_gain if e.has(s) else e
 
 
 def _peak(e: sympy.Expr) -> float | None:
-    e = sympy.sympify(e)
+    e = as_expr(e)
     if not e.has(s) or e.free_symbols - {s}:
         return None
     r = frequency_response(transfer_function(e), points=800)
@@ -83,9 +84,9 @@ def check_limits(system, solution) -> list[OpAmpLimits]:
     out = []
     for p in limited_opamps(system.circuit):
         v, i = solution.node_voltages[p.out], solution.currents[p.id]
-        rails = tuple(sympy.sympify(r).xreplace(pvals) for r in p.get("rails")) if p.get("rails") else None
+        rails = tuple(as_expr(r).xreplace(pvals) for r in p.get("rails")) if p.get("rails") else None
         imax = p.get("max_current")
-        imax = sympy.sympify(imax).xreplace(pvals) if imax is not None else None
+        imax = as_expr(imax).xreplace(pvals) if imax is not None else None
         v_dc, i_dc = _at_dc(v), _at_dc(i)
         v_pk, i_pk = _peak(v), _peak(i)
         problems: list[str] = []
@@ -187,11 +188,11 @@ def compliance_range(circuit, values: dict | None = None, load: str | None = Non
         v = _at_dc(sol.node_voltages[p.out]).xreplace({param(load): x})
         i = _at_dc(sol.currents[p.id]).xreplace({param(load): x})
         if p.get("rails"):
-            low, high = (sympy.sympify(r).xreplace(pvals) for r in p.get("rails"))
+            low, high = (as_expr(r).xreplace(pvals) for r in p.get("rails"))
             allowed &= sympy.solveset(v >= low, x, domain)
             allowed &= sympy.solveset(v <= high, x, domain)
         if p.get("max_current") is not None:
-            im = sympy.sympify(p.get("max_current")).xreplace(pvals)
+            im = as_expr(p.get("max_current")).xreplace(pvals)
             allowed &= sympy.solveset(i <= im, x, domain)
             allowed &= sympy.solveset(i >= -im, x, domain)
         per[p.id] = allowed

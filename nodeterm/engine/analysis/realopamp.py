@@ -13,6 +13,7 @@ from typing import TYPE_CHECKING
 
 import sympy
 
+from ..symbols import as_expr
 from ..system import System, build_system
 from ..symbols import param, s
 
@@ -93,7 +94,7 @@ def _dc(expr: sympy.Expr) -> sympy.Expr:
 
 
 def _value_at(expr: sympy.Expr, f_hz: float) -> complex | None:
-    v = sympy.sympify(expr).xreplace({s: sympy.I * 2 * sympy.pi * sympy.Float(f_hz)})
+    v = as_expr(expr).xreplace({s: sympy.I * 2 * sympy.pi * sympy.Float(f_hz)})
     return complex(v) if v.is_number else None
 
 
@@ -102,6 +103,15 @@ def _bandwidth(expr: sympy.Expr) -> Bandwidth | None:
         return None
     from .transfer import bandwidth_3db, transfer_function
     return bandwidth_3db(transfer_function(expr))
+
+
+def _value(circuit, v) -> sympy.Expr:
+    """A value given by a caller: text goes through our expression parser, never sympify."""
+    if isinstance(v, str):
+        from ..expr import parse_expression
+        params = circuit.parameters
+        return parse_expression(v, lambda n: param(n) if n in params else None)
+    return as_expr(v)
 
 
 def resolved_values(circuit, values: dict | None = None) -> dict[str, sympy.Expr]:
@@ -121,7 +131,7 @@ def resolved_values(circuit, values: dict | None = None) -> dict[str, sympy.Expr
     1/5000000
     """
     raw = {n: p.value for n, p in circuit.parameters.items() if p.value is not None}
-    raw.update({n: sympy.sympify(v) for n, v in (values or {}).items()})
+    raw.update({n: _value(circuit, v) for n, v in (values or {}).items()})
     subs = {param(n): v for n, v in raw.items()}
     for _ in range(len(subs) + 1):  # the loader rejects cycles, so this settles
         new = {k: v.xreplace(subs) for k, v in subs.items()}
@@ -152,7 +162,7 @@ def compare_models(circuit, values: dict | None = None, frequency: float | None 
     real_sol, ideal_sol = real_sys.solve(), ideal_sys.solve()
     rows = []
     for name in circuit.find:
-        hi, hr = sympy.sympify(ideal_sol.find[name]), sympy.sympify(real_sol.find[name])
+        hi, hr = as_expr(ideal_sol.find[name]), as_expr(real_sol.find[name])
         di, dr = _dc(hi), _dc(hr)
         err = None
         if di.is_finite is not False and di != 0 and dr.is_finite is not False:

@@ -15,6 +15,7 @@ from dataclasses import dataclass
 
 import sympy
 
+from ..symbols import as_expr
 from ..system import build_system
 from ..symbols import param, s
 from .transfer import _simplify_positive, transfer_function
@@ -42,7 +43,7 @@ def scalar_quantities(circuit, solution=None) -> dict[str, sympy.Expr]:
         solution = build_system(circuit).solve()
     out: dict[str, sympy.Expr] = {}
     for name in circuit.find:
-        value = sympy.sympify(solution.find[name])
+        value = as_expr(solution.find[name])
         if not value.has(s):
             out[name] = value
             continue

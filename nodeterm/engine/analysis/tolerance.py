@@ -21,6 +21,7 @@ from typing import Callable
 import numpy as np
 import sympy
 
+from ..symbols import as_expr
 from ..errors import InputError
 from ..symbols import param, s
 from .sensitivity import Sensitivity, sign_of
@@ -128,7 +129,7 @@ def monte_carlo(quantities: dict[str, sympy.Expr], spread_list: list[Spread], no
     names = [sp.name for sp in spread_list]
     funcs = {}
     for qname, expr in quantities.items():
-        fixed = _fixed(sympy.sympify(expr), nominal, set(names))
+        fixed = _fixed(as_expr(expr), nominal, set(names))
         rest = fixed.free_symbols - {param(n) for n in names}
         if rest or fixed.has(s):
             raise InputError(f"{qname} still depends on {', '.join(sorted(map(str, rest))) or 's'}",
@@ -186,7 +187,7 @@ def worst_case(quantities: dict[str, sympy.Expr], spread_list: list[Spread], nom
     names = [sp.name for sp in spread_list]
     out = {}
     for qname, expr in quantities.items():
-        fixed = _fixed(sympy.sympify(expr), nominal, set(names))
+        fixed = _fixed(as_expr(expr), nominal, set(names))
         fn = _function(fixed, names)
         nom = float(fixed.xreplace(nominal))
         signs = sign_of(sens, qname)

@@ -19,6 +19,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import sympy
 
+from ..symbols import as_expr
 from ..symbols import s
 
 SQRT2_DB = 20 * math.log10(math.sqrt(2))  # 3.0103 dB
@@ -114,7 +115,7 @@ def _positive(expr: sympy.Expr) -> tuple[sympy.Expr, dict]:
 
 
 def _simplify_positive(expr: sympy.Expr) -> sympy.Expr:
-    pos, back = _positive(sympy.sympify(expr))
+    pos, back = _positive(as_expr(expr))
     return sympy.simplify(sympy.powsimp(pos, force=True)).xreplace(back)
 
 
@@ -214,7 +215,7 @@ def transfer_function(expr: sympy.Expr, name: str = "H") -> TransferFunction:
     >>> [(x.order, x.w0) for x in tf.sections]
     [(1, 1/(C*R))]
     """
-    expr = sympy.cancel(sympy.together(sympy.sympify(expr)))
+    expr = sympy.cancel(sympy.together(as_expr(expr)))
     num, den = sympy.fraction(expr)
     num, den = sympy.expand(num), sympy.expand(den)
     lead = sympy.Poly(den, s).LC()
@@ -238,7 +239,7 @@ def transfer_function(expr: sympy.Expr, name: str = "H") -> TransferFunction:
 def transfer_functions(solution, circuit) -> dict[str, TransferFunction]:
     """H(s) of every [find] quantity that depends on s."""
     return {name: transfer_function(v, name) for name, v in solution.find.items()
-            if sympy.sympify(v).has(s) and name in circuit.find}
+            if as_expr(v).has(s) and name in circuit.find}
 
 
 # --- frequency response ------------------------------------------------------------------------
