@@ -171,7 +171,7 @@ async def test_csv_asked_for_before_the_response_is_computed_opens_when_ready(tm
         assert await wait_for(pilot, lambda: isinstance(app.screen, PathScreen))
         app.screen.query_one("#path-input").value = str(tmp_path / "early.csv")
         await pilot.press("enter")
-        await pilot.pause()
+        assert await wait_for(pilot, lambda: (tmp_path / "early.csv").exists())  # written by a worker
         assert read_csv(tmp_path / "early.csv")[0] == ["frequency_hz", "H_magnitude_db", "H_phase_deg"]
 
 
