@@ -126,6 +126,7 @@ def _add(sub) -> None:
 def cmd_response(args) -> int:
     from .engine.analysis.realopamp import prepared
     from .engine.analysis.transfer import auto_range, frequency_response, transfer_functions
+    from .engine.fastsolve import ResultTooLarge
     from .present.analysis import response_csv, response_plot, response_table, transfer_lines
     f_lo, f_hi = frequency_range(args.f_from, args.f_to)
     if args.points < 2:
@@ -135,10 +136,13 @@ def cmd_response(args) -> int:
     if args.find is not None and args.find not in circuit.find:
         raise InputError(f"--find {args.find!r} is not a [find] quantity",
                          hint="[find]: " + (", ".join(circuit.find) or "(none)"), file=CMDLINE)
-    symbolic = build_system(circuit)
     system = prepared(circuit, values)
-    tfs_sym = transfer_functions(symbolic.solve(), circuit)
     tfs = transfer_functions(system.solve(), circuit)
+    try:  # the symbolic form is shown beside the numbers when it is not too large
+        tfs_sym = transfer_functions(build_system(circuit).solve(), circuit) if system.values else tfs
+        too_large = ""
+    except ResultTooLarge as exc:
+        tfs_sym, too_large = {}, exc.message
     if args.find:
         tfs_sym = {k: v for k, v in tfs_sym.items() if k == args.find}
         tfs = {k: v for k, v in tfs.items() if k == args.find}
@@ -154,8 +158,11 @@ def cmd_response(args) -> int:
                      "in its path (or ask for a ratio such as V_out/V_in in [find]).")
     responses = []
     for name, tf in tfs.items():
-        lines += ["With every parameter as a symbol:"] + ["  " + ln for ln in transfer_lines(tfs_sym[name], args.ascii)]
-        if system.values and tf.expr != tfs_sym[name].expr:
+        if name in tfs_sym:
+            lines += ["With every parameter as a symbol:"] + ["  " + ln for ln in transfer_lines(tfs_sym[name], args.ascii)]
+        else:
+            lines += [f"With every parameter as a symbol: not shown ({too_large}).", ""]
+        if system.values and (name not in tfs_sym or tf.expr != tfs_sym[name].expr):
             lines += ["", "With the values:"] + ["  " + ln for ln in transfer_lines(tf, args.ascii)]
         if tf.is_numeric:
             resp = frequency_response(tf, f_lo, f_hi, args.points)

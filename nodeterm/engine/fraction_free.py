@@ -16,6 +16,14 @@ solver over a polynomial ring (see :mod:`.fastsolve`).
 from __future__ import annotations
 
 
+class TooManyTerms(ArithmeticError):
+    """The polynomials held at once passed the caller's term limit (``terms`` is how many)."""
+
+    def __init__(self, terms: int) -> None:
+        super().__init__(f"{terms} terms")
+        self.terms = terms
+
+
 def _parity(perm: list[int]) -> int:
     """+1 or -1: the sign of a permutation given as a list."""
     seen = [False] * len(perm)
@@ -33,13 +41,14 @@ def _parity(perm: list[int]) -> int:
     return sign
 
 
-def determinant(rows: list[dict], n: int, one):
+def determinant(rows: list[dict], n: int, one, limit: int | None = None):
     """Determinant of a sparse square polynomial matrix by fraction-free elimination.
 
     Args:
         rows: one dict per row, column -> nonzero polynomial (columns ``0..n-1``).
         n: the size.
         one: the polynomial 1 (its context).
+        limit: raise :class:`TooManyTerms` when the rows still to eliminate hold more terms in all.
 
     Pivots follow the Markowitz cost, so sparse circuit matrices keep their sparsity; ties go to
     the most recently updated row (elimination stays on one front: two fronts would multiply
@@ -54,6 +63,7 @@ def determinant(rows: list[dict], n: int, one):
     x^2 - y^2
     """
     rows = [dict(r) for r in rows]
+    held = sum(len(v) for r in rows for v in r.values()) if limit is not None else 0
     col_rows: dict[int, set[int]] = {c: set() for c in range(n)}
     for i, r in enumerate(rows):
         for c in r:
@@ -103,11 +113,17 @@ def determinant(rows: list[dict], n: int, one):
                     val = val / div
                 if not val.is_zero():
                     new[j] = val
+                    if limit is not None:
+                        held += len(val)
+                        if held > limit:
+                            raise TooManyTerms(held)
             for j in row:
                 if j not in new:
                     col_rows[j].discard(i)
             for j in new:
                 col_rows[j].add(i)
+            if limit is not None:  # the row's old entries are let go
+                held -= sum(len(v) for v in row.values())
             rows[i] = new
             level[i] = k + 1
         for j in prow:
@@ -118,13 +134,15 @@ def determinant(rows: list[dict], n: int, one):
     return piv[n] * (_parity(order_r) * _parity(order_c))
 
 
-def cramer(rows: list[dict], n: int, one) -> tuple[list, object] | None:
+def cramer(rows: list[dict], n: int, one, limit: int | None = None) -> tuple[list, object] | None:
     """Solve a sparse square polynomial system by Cramer's rule.
 
     Args:
         rows: one dict per equation, column -> nonzero polynomial; column ``n`` is the right side.
         n: number of unknowns.
         one: the polynomial 1.
+        limit: raise :class:`TooManyTerms` when an elimination, or the answer so far (numerators
+            plus the denominator once per unknown), holds more terms.
 
     Returns:
         ``(X, D)`` with ``x_j = X[j]/D`` (not reduced), or None when the matrix is singular.
@@ -134,10 +152,11 @@ def cramer(rows: list[dict], n: int, one) -> tuple[list, object] | None:
     eliminations are far cheaper, since each only ever multiplies a large minor by a small entry.
     """
     A = [{j: v for j, v in r.items() if j < n} for r in rows]
-    D = determinant(A, n, one)
+    D = determinant(A, n, one, limit)
     if D.is_zero():
         return None
     X = []
+    kept = 0
     for c in range(n):
         Ac = []
         for r, full in zip(A, rows):
@@ -145,5 +164,8 @@ def cramer(rows: list[dict], n: int, one) -> tuple[list, object] | None:
             if n in full:
                 rc[c] = full[n]
             Ac.append(rc)
-        X.append(determinant(Ac, n, one))
+        X.append(determinant(Ac, n, one, limit))
+        kept += len(X[-1]) + len(D)
+        if limit is not None and kept > limit:
+            raise TooManyTerms(kept)
     return X, D

@@ -190,3 +190,26 @@ H = "V_out/V_in"
     wt = 2 * sympy.pi * param("GBW")
     # follower with A(s) = wt/s: H = wt/(s + wt), a single pole at the gain-bandwidth frequency
     assert same(sol.find["H"], wt / (s + wt))
+
+
+def test_poles_of_a_sixteen_pole_cascade_are_exact_and_real():
+    # A cascade of 16 buffered RC sections with distinct time constants has 16 real poles at
+    # -1/(R*C) each and no complex pair (cascaded first-order sections: common practice, no
+    # source). The reference is the product SymPy expands here; before the roots came from
+    # FLINT's certified isolation, NumPy's companion-matrix roots put some of these poles off by
+    # 1e-5 and read pairs of them as second-order sections with Q = 0.5.
+    from nodeterm.engine.analysis.transfer import numeric_roots
+    expected = sorted(-sympy.Rational(10**5, k) for k in range(1, 17))
+    den = sympy.expand(sympy.prod([1 + s / -p for p in expected]))
+    tf = transfer_function(1 / den, "H")
+    assert sorted(r.real for r in tf.poles) == pytest.approx([float(p) for p in expected], rel=1e-13)
+    assert all(r.imag == 0 for r in tf.poles)
+    corners = [sec for sec in tf.sections if sec.where == "pole"]
+    assert [sec.order for sec in corners] == [1] * 16
+    # a complex pair: s**2 + s + 100 has roots -1/2 +- j*sqrt(399)/2 (quadratic formula)
+    pair = numeric_roots([1, 1, 100])
+    assert sorted(pair, key=lambda z: z.imag) == pytest.approx(
+        [complex(-0.5, -np.sqrt(399) / 2), complex(-0.5, np.sqrt(399) / 2)], rel=1e-15)
+    # float coefficients go to numpy.roots (the reference itself)
+    floats = numeric_roots([1.0, 3.5, 2.5])
+    assert sorted(r.real for r in floats) == pytest.approx(sorted(np.roots([1.0, 3.5, 2.5]).real))

@@ -134,8 +134,33 @@ def _roots(poly_expr: sympy.Expr) -> tuple | None:
         if sum(found.values()) == poly.degree():
             return tuple(sympy.simplify(r) for r, m in found.items() for _ in range(m))
     if numeric:
-        return tuple(complex(r) for r in np.roots([complex(c) for c in poly.all_coeffs()]))
+        return numeric_roots(poly.all_coeffs())
     return None
+
+
+def numeric_roots(coeffs) -> tuple:
+    """Roots (with multiplicity) of a polynomial with number coefficients, highest power first.
+
+    Rational coefficients (the usual case: exact values) go to FLINT's certified root isolation,
+    which gives real roots exactly real and every root to double precision: NumPy's companion-matrix
+    roots of a 16th-order filter's denominator are off by 1e-5 relative and show real poles as
+    complex pairs with tiny imaginary parts. Other numbers (floats, roots) use ``numpy.roots``.
+
+    >>> numeric_roots([1, 3, 2])
+    ((-2+0j), (-1+0j))
+    """
+    exact = [sympy.Rational(c) if not isinstance(c, sympy.Basic) else c for c in coeffs]
+    try:
+        import flint
+    except ImportError:  # pragma: no cover - python-flint is a dependency
+        flint = None
+    if flint is not None and all(c.is_Rational for c in exact):
+        poly = flint.fmpq_poly([flint.fmpq(int(c.p), int(c.q)) for c in reversed(exact)])
+        out = []
+        for z, mult in poly.complex_roots():
+            out += [complex(z.mid())] * mult  # a real root's imaginary part is exactly 0
+        return tuple(out)
+    return tuple(complex(r) for r in np.roots([complex(c) for c in coeffs]))
 
 
 def _sections(poly_expr: sympy.Expr, where: str) -> list[Section]:
@@ -179,7 +204,7 @@ def _real_split(c) -> bool:
 
 def _numeric_sections(coeffs, where: str) -> list[Section]:
     """Split numeric roots into real corners and complex pairs (w0 = |p|, Q = |p|/(2*|Re p|))."""
-    roots = np.roots([complex(x) for x in coeffs])
+    roots = [complex(r) for r in numeric_roots(coeffs)]
     out = []
     for r in sorted(roots, key=lambda z: (abs(z), z.imag)):
         mag = abs(r)
