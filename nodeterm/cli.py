@@ -47,7 +47,7 @@ def prepare(args) -> "object":
     """Load, build and substitute as the common options ask."""
     circuit = load_circuit(args.file)
     if not getattr(args, "numeric", False):
-        from .engine.numeric import check_exact_size
+        from .engine.size_limits import check_exact_size  # not .numeric: that imports NumPy
         check_exact_size(circuit)
     system = build_system(circuit)
     sets = parse_sets(getattr(args, "set", None))

@@ -33,8 +33,7 @@ from .errors import InputError
 from .parts import CurrentSource, VoltageSource, _Passive
 from .symbols import I, V, param, s
 
-EXACT_NODE_LIMIT = 400
-"""Above this many nodes ``nodeterm solve`` refuses exact solving and suggests ``--numeric``."""
+from .size_limits import EXACT_NODE_LIMIT, check_exact_size  # noqa: F401 - part of this module's API
 
 
 @dataclass
@@ -346,19 +345,6 @@ def number_text(value) -> str:
     if value.imag == 0:
         return repr(float(value.real))
     return str(value)
-
-
-def check_exact_size(circuit) -> None:
-    """Refuse exact solving of a circuit too large for it, pointing to the numeric path.
-
-    Raises:
-        InputError: above :data:`EXACT_NODE_LIMIT` nodes.
-    """
-    if len(circuit.nodes) > EXACT_NODE_LIMIT:
-        raise InputError(f"{len(circuit.nodes)} nodes is too many to solve exactly (the limit is "
-                         f"{EXACT_NODE_LIMIT}: exact fractions grow with every node)",
-                         hint="solve it in double precision with --numeric (every parameter needs a value)",
-                         file=circuit.path)
 
 
 def parse_values(circuit, sets: dict) -> dict:

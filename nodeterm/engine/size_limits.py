@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import math
 
+from .errors import InputError
 from .expr import MAX_EXPONENT, MAX_NUMBER_BITS, MAX_TERMS, size_bound, term_bound
 from .model import Parameter
 from .parts import Part
@@ -93,3 +94,20 @@ class _SizeLimits:
                              f"{MAX_TERMS} terms",
                              hint="circuit values are short; check the powers (e.g. (a+b+c)^64) in the value",
                              line=line)
+
+
+EXACT_NODE_LIMIT = 400
+"""Above this many nodes ``nodeterm solve`` refuses exact solving and suggests ``--numeric``."""
+
+
+def check_exact_size(circuit) -> None:
+    """Refuse exact solving of a circuit too large for it, pointing to the numeric path.
+
+    Raises:
+        InputError: above :data:`EXACT_NODE_LIMIT` nodes.
+    """
+    if len(circuit.nodes) > EXACT_NODE_LIMIT:
+        raise InputError(f"{len(circuit.nodes)} nodes is too many to solve exactly (the limit is "
+                         f"{EXACT_NODE_LIMIT}: exact fractions grow with every node)",
+                         hint="solve it in double precision with --numeric (every parameter needs a value)",
+                         file=circuit.path)
