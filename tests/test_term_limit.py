@@ -15,11 +15,11 @@ from pathlib import Path
 import pytest
 import sympy
 
-from nodeterm.engine import SolveError, build_system, parse_circuit
+from nodeterm.engine import SolveError, build_system, load_circuit, parse_circuit
 from nodeterm.engine import fastsolve
 
 sys.path.insert(0, str(Path(__file__).parent))
-from test_fast_paths import assert_same, ladder, slow_solve  # noqa: E402
+from test_fast_paths import FILES, assert_same, ladder, slow_solve  # noqa: E402
 
 
 def op_amp_chain(stages: int) -> str:
@@ -65,12 +65,24 @@ def test_the_twelve_section_ladder_is_not_refused():
 
 
 def test_known_factor_sums_give_the_sympy_answers(monkeypatch):
-    # Every determinant treated as a known factor of later denominators (the shortcut in
-    # PolyField.add), on circuits whose currents sum fractions over several denominators.
+    # Every determinant treated as a known factor of later denominators (the shortcuts in
+    # PolyField.add and PolyField.reduce), on circuits whose currents sum fractions over several
+    # denominators and whose determinant factors (one factor per stage of the chain).
     monkeypatch.setattr(fastsolve, "KNOWN_FACTOR_TERMS", 0)
     for text in (ladder(4), op_amp_chain(3)):
         system = build_system(parse_circuit(text))
         assert_same(fastsolve.solve_system_fast(system), slow_solve(system))
+
+
+@pytest.mark.parametrize("path", FILES, ids=lambda p: Path(p).stem)
+def test_known_factor_shortcuts_on_every_bundled_and_published_circuit(path, monkeypatch):
+    monkeypatch.setattr(fastsolve, "KNOWN_FACTOR_TERMS", 0)
+    system = build_system(load_circuit(path))
+    try:
+        slow = slow_solve(system)
+    except SolveError:
+        return  # singular: covered in test_fast_paths.py
+    assert_same(fastsolve.solve_system_fast(system), slow)
 
 
 def test_command_line_refuses_a_sixteen_stage_symbolic_chain_quickly(tmp_path):
