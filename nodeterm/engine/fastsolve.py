@@ -30,6 +30,8 @@ same answers.
 
 from __future__ import annotations
 
+import time
+
 import sympy
 
 from .symbols import as_expr
@@ -63,6 +65,11 @@ FACTOR_KNOWN_TERMS = 20_000
 """A known factor up to this long is factored once (FLINT: 0.1 s at 8,192 terms), so results reduce by
 exact divisions (see PolyField.reduce); a longer one, such as the irreducible 75,025-term
 determinant of a 12-section ladder (4 s to factor), reduces by GCDs."""
+
+SLOW_GCDS, SLOW_GCD_SECONDS = 2, 0.01
+"""The known factor is factored only after this many GCDs in :meth:`PolyField.reduce` took longer than
+this: where the GCDs are quick (a ladder's determinant shares nothing with the numerators, and its
+4,181 terms take 0.1 s to factor) factoring would only cost time."""
 
 KNOWN_FACTOR_TERMS = 64
 """A determinant longer than this is kept as a known factor of later denominators (see PolyField.add)."""
@@ -114,6 +121,7 @@ class PolyField:
         self._text_cache: list = []
         self.known_factors: list = []
         self._factors: dict = {}
+        self._slow_gcds = 0
         """Large polynomials that many denominators share (the system's determinant): see :meth:`add`."""
 
     def __reduce__(self):
@@ -274,11 +282,14 @@ class PolyField:
         if num.is_zero():
             return self.zero, self.one
         if not den.is_one():
-            split = self._reduce_by_known(num, den)
+            split = self._reduce_by_known(num, den) if self._slow_gcds >= SLOW_GCDS else None
             if split is not None:
                 num, den = split
             else:
+                start = time.perf_counter()
                 g = num.gcd(den)
+                if time.perf_counter() - start > SLOW_GCD_SECONDS:
+                    self._slow_gcds += 1
                 if not g.is_one():
                     num, den = num / g, den / g
             if den.leading_coefficient() < 0:
