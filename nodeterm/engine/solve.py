@@ -17,8 +17,10 @@ from dataclasses import dataclass, field
 import sympy
 
 from .symbols import as_expr
+from sympy.core.exprtools import _keep_coeff
 from sympy.polys.matrices import DomainMatrix
 from sympy.polys.matrices.exceptions import DMNonInvertibleMatrixError
+from sympy.polys.polyutils import _sort_gens
 
 from . import fastsolve
 from .errors import SolveError
@@ -79,12 +81,57 @@ def tidy_fraction(num: sympy.Expr, den: sympy.Expr) -> sympy.Expr:
     num, den = sympy.expand(num), sympy.expand(den)
     small = len(sympy.Add.make_args(num)) + len(sympy.Add.make_args(den)) <= FACTOR_LIMIT
     if num.has(s) or den.has(s):
-        func = sympy.factor if small else (lambda x: x)
-        num = sympy.collect(num, s, func=func)
-        den = sympy.collect(den, s, func=func)
+        func = factor_poly if small else (lambda x: x)
+        num, den = collect_s(num, func), collect_s(den, func)
     elif small:
-        num, den = sympy.factor(num), sympy.factor(den)
+        num, den = factor_poly(num), factor_poly(den)
     return num / den if den != 1 else num
+
+
+def collect_s(expr: sympy.Expr, func) -> sympy.Expr:
+    """``sympy.collect(expr, s, func=func)`` for an expanded polynomial in s, built from its Poly terms.
+
+    >>> R, C = sympy.symbols("R C")
+    >>> collect_s(R*C*s**2 + R*s + C*s + 1, sympy.factor)
+    C*R*s**2 + s*(C + R) + 1
+    """
+    poly = sympy.Poly(expr, s)
+    return sympy.Add(*[func(c) * s**k for (k,), c in poly.terms()])
+
+
+def factor_poly(expr: sympy.Expr) -> sympy.Expr:
+    """``sympy.factor(expr)``, the same expression, with FLINT doing the factoring when it can.
+
+    SymPy factors multivariate polynomials in Python; FLINT (python-flint, a dependency) does it
+    in C, several times faster on the coefficients of a typical op-amp result. The factors are put
+    together as ``sympy.factor`` does (SymPy's generator order, ``_keep_coeff`` for the content),
+    so the printed form does not change; anything but a polynomial with integer coefficients is
+    left to ``sympy.factor``.
+
+    >>> R1, R2 = sympy.symbols("R1 R2")
+    >>> factor_poly(-6*R1 - 6*R2)
+    -6*(R1 + R2)
+    """
+    if fastsolve.flint is None or expr.is_Number:
+        return sympy.factor(expr)
+    gens = list(_sort_gens(list(expr.free_symbols)))
+    try:
+        poly = sympy.Poly(expr, *gens)
+    except sympy.PolynomialError:
+        return sympy.factor(expr)
+    if poly.domain != sympy.ZZ or not gens:
+        return sympy.factor(expr)
+    ctx = fastsolve.flint.fmpz_mpoly_ctx.get(tuple(f"x{i}" for i in range(len(gens))), "lex")
+    try:
+        content, factors = ctx.from_dict({m: int(c) for m, c in poly.terms()}).factor()
+    except Exception:  # noqa: BLE001 - python-flint 0.9 overflows sorting factors with huge coefficients
+        return sympy.factor(expr)
+    product = []
+    for f, mult in factors:
+        terms = [sympy.Mul(sympy.Integer(int(c)), *[g**k for g, k in zip(gens, mono) if k])
+                 for mono, c in f.to_dict().items()]
+        product.append(sympy.Add(*terms) ** mult)
+    return _keep_coeff(sympy.Integer(int(content)), sympy.Mul(*product))
 
 
 def _dummies_for_constants(M: sympy.Matrix) -> tuple[sympy.Matrix, dict]:
