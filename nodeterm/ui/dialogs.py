@@ -42,8 +42,7 @@ class ConfirmScreen(ModalScreen[bool]):
                 yield Button(f"{self.yes} (y)", id="yes")
                 yield Button(f"{self.no} (n)", id="no")
 
-    def on_mount(self) -> None:
-        self.query_one("#no", Button).focus()
+    AUTO_FOCUS = "#no"  # Textual focuses it once the screen is up (no query before the children exist)
 
     def action_answer(self, value: bool) -> None:
         self.dismiss(value)
@@ -69,8 +68,7 @@ class PathScreen(ModalScreen[str | None]):
             yield Static(self.note or "Enter: accept   Esc: cancel", id="path-note", markup=False)
             yield Static("", id="path-error", markup=False)
 
-    def on_mount(self) -> None:
-        self.query_one("#path-input", Input).focus()
+    AUTO_FOCUS = "#path-input"
 
     @on(Input.Submitted, "#path-input")
     def _submitted(self, event: Input.Submitted) -> None:
@@ -108,8 +106,7 @@ class ExportScreen(ModalScreen[tuple[str, str] | None]):
                          markup=False)
             yield Static("", id="path-error", markup=False)
 
-    def on_mount(self) -> None:
-        self.query_one("#path-input", Input).focus()
+    AUTO_FOCUS = "#path-input"
 
     @on(Select.Changed, "#export-format")
     def _format(self, event: Select.Changed) -> None:

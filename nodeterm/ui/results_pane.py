@@ -6,6 +6,8 @@ value with an SI prefix follows (``present.format.value_text``).
 
 from __future__ import annotations
 
+import textwrap
+
 from textual.containers import ScrollableContainer
 from textual.widgets import Static
 
@@ -100,4 +102,8 @@ class ResultsPane(ScrollableContainer):
         self.query_one("#results-text", Static).update(text)
 
     def show_note(self, text: str) -> None:
-        self.query_one("#results-text", Static).update(text)
+        """A message (cancelled, could not solve...), wrapped to the pane: the pane scrolls sideways
+        for wide results, so a long note would otherwise run off the screen."""
+        width = max(20, (self.size.width or 80) - 2)
+        lines = [textwrap.fill(line, width, break_on_hyphens=False) if line else "" for line in text.splitlines()]
+        self.query_one("#results-text", Static).update("\n".join(lines))

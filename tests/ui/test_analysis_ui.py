@@ -168,7 +168,7 @@ async def test_csv_asked_for_before_the_response_is_computed_opens_when_ready(tm
         await pilot.press("k")
         await settle(pilot, app)
         await pilot.press("w")  # the pane opens and starts computing; the dialog follows
-        assert await wait_for(pilot, lambda: isinstance(app.screen, PathScreen))
+        assert await wait_for(pilot, lambda: isinstance(app.screen, PathScreen) and app.screen.query("#path-input"))
         app.screen.query_one("#path-input").value = str(tmp_path / "early.csv")
         await pilot.press("enter")
         assert await wait_for(pilot, lambda: (tmp_path / "early.csv").exists())  # written by a worker
