@@ -22,21 +22,24 @@ sys.path.insert(0, str(Path(__file__).parent))
 from test_fast_paths import FILES, assert_same, ladder, slow_solve  # noqa: E402
 
 
-def op_amp_chain(stages: int) -> str:
+def op_amp_chain(stages: int, values: bool = False) -> str:
     """Buffered RC low-pass stages with gain, every part its own symbol: the determinant is the
-    product of one two-term factor per stage, so it has 2**stages terms."""
+    product of one two-term factor per stage, so it has 2**stages terms. ``values`` gives every
+    part a value in the file (invented, for the numeric response) and asks for the chain's gain."""
     lines = ["[parameters]", 'Vin = ""']
     parts = ['VS = { kind = "vsource", nodes = ["in", "gnd"], value = "Vin" }']
     prev = "in"
     for k in range(1, stages + 1):
-        lines += [f'R{k} = ""', f'C{k} = ""', f'Rf{k} = ""', f'Rg{k} = ""']
+        given = (f"{k}k", "10n", "22k", "10k") if values else ("", "", "", "")
+        lines += [f'{name}{k} = "{v}"' for name, v in zip(("R", "C", "Rf", "Rg"), given)]
         parts += [f'RS{k} = {{ kind = "resistor", nodes = ["{prev}", "a{k}"], value = "R{k}" }}',
                   f'CS{k} = {{ kind = "capacitor", nodes = ["a{k}", "gnd"], value = "C{k}" }}',
                   f'U{k} = {{ kind = "opamp", plus = "a{k}", minus = "g{k}", out = "o{k}" }}',
                   f'RF{k} = {{ kind = "resistor", nodes = ["o{k}", "g{k}"], value = "Rf{k}" }}',
                   f'RG{k} = {{ kind = "resistor", nodes = ["g{k}", "gnd"], value = "Rg{k}" }}']
         prev = f"o{k}"
-    return "\n".join(lines + ["[parts]"] + parts) + "\n"
+    find = ["[find]", f'gain = "V_o{stages}/V_in"'] if values else []
+    return "\n".join(lines + ["[parts]"] + parts + find) + "\n"
 
 
 def test_results_past_the_limit_are_refused_with_what_to_do(monkeypatch):
@@ -99,11 +102,7 @@ def test_command_line_refuses_a_sixteen_stage_symbolic_chain_quickly(tmp_path):
     assert f"{path}: error: the exact answer is too large" in proc.stderr
     assert proc.stdout == ""
     # the frequency response needs only the numbers: shown, with the symbolic form left out
-    values = "\n".join(f'{n}{k} = "{v}"' for k in range(1, 17) for n, v in
-                       (("R", f"{k}k"), ("C", "10n"), ("Rf", "22k"), ("Rg", "10k")))
-    path.write_text(op_amp_chain(16).replace("\n".join(f'R{k} = ""\nC{k} = ""\nRf{k} = ""\nRg{k} = ""'
-                                                       for k in range(1, 17)), values)
-                    + '[find]\ngain = "V_o16/V_in"\n')
+    path.write_text(op_amp_chain(16, values=True))
     proc = subprocess.run([sys.executable, "-m", "nodeterm", "response", str(path)], capture_output=True,
                           text=True, timeout=120)
     assert proc.returncode == 0, proc.stderr[-2000:]
