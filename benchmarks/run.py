@@ -36,7 +36,7 @@ ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
 
 from nodeterm.engine import build_system, load_circuit, parse_circuit  # noqa: E402
-from nodeterm.engine.numeric import NumericModel  # noqa: E402
+from nodeterm.engine.solving.numeric import NumericModel  # noqa: E402
 from nodeterm.present.format import expr_text  # noqa: E402
 from nodeterm.present.text import report  # noqa: E402
 

@@ -14,7 +14,7 @@ import sys
 import threading
 from importlib import resources
 
-from .engine import InputError, build_system, load_circuit
+from nodeterm.engine import InputError, build_system, load_circuit
 
 COMMANDS = {}
 DEFAULT_DEMO = "kiln_preamp.toml"
@@ -47,7 +47,7 @@ def prepare(args) -> "object":
     """Load, build and substitute as the common options ask."""
     circuit = load_circuit(args.file)
     if not getattr(args, "numeric", False):
-        from .engine.size_limits import check_exact_size  # not .numeric: that imports NumPy
+        from nodeterm.engine.circuit.size_limits import check_exact_size  # not .numeric: that imports NumPy
         check_exact_size(circuit)
     system = build_system(circuit)
     sets = parse_sets(getattr(args, "set", None))
@@ -101,8 +101,8 @@ def add_common(p: argparse.ArgumentParser) -> None:
 
 @command("solve")
 def cmd_solve(args) -> int:
-    from .present.jsonout import to_json
-    from .present.text import report
+    from nodeterm.present.jsonout import to_json
+    from nodeterm.present.text import report
     if args.numeric:
         return _solve_numeric(args)
     system = prepare(args)
@@ -115,11 +115,11 @@ def cmd_solve(args) -> int:
 
 
 def _solve_numeric(args) -> int:
-    """``solve --numeric``: double precision from the compiled circuit (nodeterm.engine.numeric)."""
+    """``solve --numeric``: double precision from the compiled circuit (nodeterm.engine.solving.numeric)."""
     import math
 
-    from .engine.numeric import EXACT_NODE_LIMIT, NumericModel, parse_values
-    from .present.numeric import numeric_json, numeric_report
+    from nodeterm.engine.solving.numeric import EXACT_NODE_LIMIT, NumericModel, parse_values
+    from nodeterm.present.numeric import numeric_json, numeric_report
     circuit = load_circuit(args.file)
     values = parse_values(circuit, parse_sets(args.set))
     s_value = 0 if args.frequency is None else complex(0, 2 * math.pi * args.frequency)
@@ -172,7 +172,7 @@ def _load_extensions() -> None:
 
 
 def open_workbench(path: str | None) -> int:
-    from .ui.app import run  # Textual is imported only here
+    from nodeterm.ui.app import run  # Textual is imported only here
     return run(path)
 
 
@@ -191,7 +191,7 @@ def main(argv: list[str] | None = None) -> int:
                 load_circuit(path)  # a bad file is reported here, before the screen opens
             return open_workbench(path)
         if argv[0] == "--version":
-            from . import __version__
+            from nodeterm import __version__
             print(f"nodeterm {__version__}")
             return 0
         parser = build_parser()

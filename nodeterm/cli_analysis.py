@@ -17,10 +17,10 @@ import sys
 
 import sympy
 
-from .cli import DEFAULT_TIME_LIMIT, command, parse_sets, register_subcommand
-from .engine import InputError, build_system, load_circuit
-from .engine.expr import ExpressionError, parse_expression
-from .engine.symbols import param
+from nodeterm.cli import DEFAULT_TIME_LIMIT, command, parse_sets, register_subcommand
+from nodeterm.engine import InputError, build_system, load_circuit
+from nodeterm.engine.circuit.expr import ExpressionError, parse_expression
+from nodeterm.engine.symbols import param
 
 CMDLINE = "<command line>"
 
@@ -68,8 +68,8 @@ def _print(lines) -> None:
 
 
 def _finish(lines, warnings, ascii_only: bool) -> None:
-    from .engine.analysis.cautions import LINEAR_NOTE
-    from .present.analysis import warning_lines
+    from nodeterm.engine.analysis.cautions import LINEAR_NOTE
+    from nodeterm.present.analysis import warning_lines
     text = "\n".join(warning_lines(warnings) + ([""] if warnings else []) + list(lines) + ["", f"note: {LINEAR_NOTE}"])
     if ascii_only:
         text = text.replace("≈", "~").replace("µ", "u").replace("Ω", "ohm")
@@ -124,10 +124,10 @@ def _add(sub) -> None:
 
 @command("response")
 def cmd_response(args) -> int:
-    from .engine.analysis.realopamp import prepared
-    from .engine.analysis.transfer import auto_range, frequency_response, transfer_functions
-    from .engine.fastsolve import ResultTooLarge
-    from .present.analysis import response_csv, response_plot, response_table, transfer_lines
+    from nodeterm.engine.analysis.realopamp import prepared
+    from nodeterm.engine.analysis.transfer import auto_range, frequency_response, transfer_functions
+    from nodeterm.engine.solving.fastsolve import ResultTooLarge
+    from nodeterm.present.analysis import response_csv, response_plot, response_table, transfer_lines
     f_lo, f_hi = frequency_range(args.f_from, args.f_to)
     if args.points < 2:
         raise InputError(f"--points {args.points} is too few", hint="give at least 2", file=CMDLINE)
@@ -182,7 +182,7 @@ def cmd_response(args) -> int:
         if args.csv == "-":
             sys.stdout.write(text)
             return 0
-        from .present.export import write_atomic
+        from nodeterm.present.export import write_atomic
         write_atomic(args.csv, text, force=True)  # asked for by name: replaced, atomically (ExportError says why not)
         lines.append(f"wrote {args.csv}")
     _finish(lines, _warnings(system), args.ascii)
@@ -190,8 +190,8 @@ def cmd_response(args) -> int:
 
 
 def _warnings(system, solution=None, checks=()):
-    from .engine.analysis.cautions import merge, node_cautions, source_cautions
-    from .engine.analysis.limits import limit_warnings
+    from nodeterm.engine.analysis.cautions import merge, node_cautions, source_cautions
+    from nodeterm.engine.analysis.limits import limit_warnings
     extra = source_cautions(system.circuit, system.values)
     if solution is not None:
         extra += node_cautions(solution.node_voltages)
@@ -200,8 +200,8 @@ def _warnings(system, solution=None, checks=()):
 
 @command("real")
 def cmd_real(args) -> int:
-    from .engine.analysis.realopamp import compare_models, has_real_model
-    from .present.analysis import comparison_lines
+    from nodeterm.engine.analysis.realopamp import compare_models, has_real_model
+    from nodeterm.present.analysis import comparison_lines
     f = _frequency(args.at, "--at")
     circuit = load_circuit(args.file)
     values = _values(circuit, args)
@@ -217,9 +217,9 @@ def cmd_real(args) -> int:
 
 @command("limits")
 def cmd_limits(args) -> int:
-    from .engine.analysis.limits import check_limits, compliance_range, limited_opamps
-    from .engine.analysis.realopamp import prepared
-    from .present.analysis import compliance_lines, limits_lines
+    from nodeterm.engine.analysis.limits import check_limits, compliance_range, limited_opamps
+    from nodeterm.engine.analysis.realopamp import prepared
+    from nodeterm.present.analysis import compliance_lines, limits_lines
     circuit = load_circuit(args.file)
     values = _values(circuit, args)
     if not limited_opamps(circuit):
@@ -250,8 +250,8 @@ def cmd_limits(args) -> int:
 
 @command("sensitivity")
 def cmd_sensitivity(args) -> int:
-    from .engine.analysis.sensitivity import nominal_values, scalar_quantities, sensitivities
-    from .present.analysis import sensitivity_lines
+    from nodeterm.engine.analysis.sensitivity import nominal_values, scalar_quantities, sensitivities
+    from nodeterm.present.analysis import sensitivity_lines
     circuit = load_circuit(args.file)
     values = _values(circuit, args)
     quantities = scalar_quantities(circuit)
@@ -264,9 +264,9 @@ def cmd_sensitivity(args) -> int:
 
 @command("tolerance")
 def cmd_tolerance(args) -> int:
-    from .engine.analysis.sensitivity import nominal_values, scalar_quantities, sensitivities
-    from .engine.analysis.tolerance import monte_carlo, spreads, worst_case
-    from .present.analysis import histogram_plot, tolerance_lines
+    from nodeterm.engine.analysis.sensitivity import nominal_values, scalar_quantities, sensitivities
+    from nodeterm.engine.analysis.tolerance import monte_carlo, spreads, worst_case
+    from nodeterm.present.analysis import histogram_plot, tolerance_lines
     if args.bins < 1:
         raise InputError(f"--bins {args.bins} is too few", hint="give at least 1", file=CMDLINE)
     circuit = load_circuit(args.file)

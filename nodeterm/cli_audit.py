@@ -16,10 +16,10 @@ from __future__ import annotations
 import json
 import sys
 
-from .cli import add_common, command, prepare, register_subcommand
-from .engine import InputError
-from .engine.audit import audit_claims, exit_status
-from .present.export import FORMATS, render, write_atomic
+from nodeterm.cli import add_common, command, prepare, register_subcommand
+from nodeterm.engine import InputError
+from nodeterm.engine.audit.verdicts import audit_claims, exit_status
+from nodeterm.present.export import FORMATS, render, write_atomic
 
 
 @register_subcommand
@@ -38,8 +38,8 @@ def _add_parsers(sub) -> None:
 
 @command("check")
 def cmd_check(args) -> int:
-    from .present.jsonout import check_dict
-    from .present.text import verdicts_text
+    from nodeterm.present.jsonout import check_dict
+    from nodeterm.present.text import verdicts_text
     system = prepare(args)
     circuit = system.circuit
     if not circuit.hand:

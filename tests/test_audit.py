@@ -1,4 +1,4 @@
-"""Audit of hand derivations (nodeterm.engine.audit) and ``nodeterm check``.
+"""Audit of hand derivations (nodeterm.engine.audit.verdicts) and ``nodeterm check``.
 
 The circuits in tests/audit/ carry correct hand derivations of published circuits, each written in
 several scalings and arrangements; the source of each formula is named in its file:
@@ -27,9 +27,9 @@ import sympy
 
 from nodeterm.cli import main
 from nodeterm.engine import build_system, load_circuit
-from nodeterm.engine.audit import Verdict, audit_claim, audit_claims, exit_status
-from nodeterm.engine.expr import parse_expression
-from nodeterm.engine.loader import quantity_resolver
+from nodeterm.engine.audit.verdicts import Verdict, audit_claim, audit_claims, exit_status
+from nodeterm.engine.circuit.expr import parse_expression
+from nodeterm.engine.circuit.loader import quantity_resolver
 from nodeterm.engine.symbols import V, I
 
 HERE = Path(__file__).parent / "audit"

@@ -24,8 +24,8 @@ import sympy
 
 from nodeterm.cli import main
 from nodeterm.engine import build_system, load_circuit
-from nodeterm.engine.audit import audit_claims
-from nodeterm.engine.expr import parse_expression
+from nodeterm.engine.audit.verdicts import audit_claims
+from nodeterm.engine.circuit.expr import parse_expression
 from nodeterm.present.export import BENCH_NOTE, FORMATS, ExportError, render, write_atomic
 
 ROOT = Path(__file__).parents[1]

@@ -1,6 +1,6 @@
 """The fast paths give the same answers as the reference paths (no timing here: see benchmarks/).
 
-* Exact: the FLINT path (nodeterm.engine.fastsolve) against the pure-SymPy path (DomainMatrix
+* Exact: the FLINT path (nodeterm.engine.solving.fastsolve) against the pure-SymPy path (DomainMatrix
   ``solve_den`` then ``sympy.cancel``), result by result, structurally equal.
 * Large results: their text, read back by SymPy, equals the SymPy path's expression.
 * Numeric: the sparse-LU path against the exact solution evaluated by SymPy, and the batched
@@ -18,9 +18,9 @@ import pytest
 import sympy
 
 from nodeterm.engine import SolveError, build_system, load_circuit, parse_circuit
-from nodeterm.engine import fastsolve
-from nodeterm.engine.numeric import NumericModel
-from nodeterm.engine.solve import solve_linear, solve_linear_sympy, solve_system_sympy
+from nodeterm.engine.solving import fastsolve
+from nodeterm.engine.solving.numeric import NumericModel
+from nodeterm.engine.solving.solve import solve_linear, solve_linear_sympy, solve_system_sympy
 from nodeterm.engine.symbols import s
 
 ROOT = Path(__file__).resolve().parent.parent

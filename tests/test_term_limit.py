@@ -16,7 +16,7 @@ import pytest
 import sympy
 
 from nodeterm.engine import SolveError, build_system, load_circuit, parse_circuit
-from nodeterm.engine import fastsolve
+from nodeterm.engine.solving import fastsolve
 
 sys.path.insert(0, str(Path(__file__).parent))
 from test_fast_paths import FILES, assert_same, ladder, slow_solve  # noqa: E402

@@ -31,7 +31,7 @@ def as_expr(value) -> sympy.Expr:
 
     Never parses text: a string is refused, and SymPy's converter runs in strict mode, so
     nothing falls back to reading ``str(value)``. Text from a file goes through
-    :func:`nodeterm.engine.expr.parse_expression` only.
+    :func:`nodeterm.engine.circuit.expr.parse_expression` only.
 
     >>> as_expr(3) + as_expr(sympy.Symbol("R"))
     R + 3

@@ -23,9 +23,9 @@ import threading
 import numpy as np
 import sympy
 
-from ..engine.symbols import as_expr
-from ..engine.analysis.cautions import LINEAR_NOTE
-from .format import eng, expr_text
+from nodeterm.engine.symbols import as_expr
+from nodeterm.engine.analysis.cautions import LINEAR_NOTE
+from nodeterm.present.format import eng, expr_text
 
 _PLOT_LOCK = threading.Lock()
 
@@ -217,7 +217,7 @@ def _bw_text(bw, ascii_only: bool) -> str:
 
 def comparison_lines(cmp, ascii_only: bool = False) -> list[str]:
     """Ideal against real model for every [find] quantity, then the real model's node equations."""
-    from .text import equation_text
+    from nodeterm.present.text import equation_text
     out = ["Ideal op-amps against the real model (gain, gbw, rin, rout)", ""]
     for r in cmp.rows:
         out.append(f"{r.name}")

@@ -44,7 +44,7 @@ def render(system, solution, verdicts=None, fmt: str = "text") -> str:
     """
     verdicts = list(verdicts or [])
     if fmt in ("text", "ascii"):
-        from .text import report, to_ascii, verdicts_text
+        from nodeterm.present.text import report, to_ascii, verdicts_text
         ascii_only = fmt == "ascii"
         out = report(system, solution, ascii_only=ascii_only)
         if verdicts:
@@ -52,13 +52,13 @@ def render(system, solution, verdicts=None, fmt: str = "text") -> str:
         out += "\nNote: " + BENCH_NOTE + "\n"
         return to_ascii(out) if ascii_only else out
     if fmt == "markdown":
-        from .markdown import render_markdown
+        from nodeterm.present.markdown import render_markdown
         return render_markdown(system, solution, verdicts, note=BENCH_NOTE)
     if fmt == "latex":
-        from .latex import render_latex
+        from nodeterm.present.latex import render_latex
         return render_latex(system, solution, verdicts, note=BENCH_NOTE)
     if fmt == "json":
-        from .jsonout import export_dict
+        from nodeterm.present.jsonout import export_dict
         return json.dumps(export_dict(system, solution, verdicts, note=BENCH_NOTE), indent=2,
                           ensure_ascii=False) + "\n"
     raise ExportError(f"unknown export format {fmt!r}", hint="formats: " + ", ".join(FORMATS))

@@ -11,7 +11,7 @@ import math
 
 import sympy
 
-from ..engine.symbols import as_expr
+from nodeterm.engine.symbols import as_expr
 _PREFIXES = [(12, "T"), (9, "G"), (6, "M"), (3, "k"), (0, ""), (-3, "m"), (-6, "µ"), (-9, "n"), (-12, "p"),
              (-15, "f")]
 

@@ -9,8 +9,8 @@ import json
 
 import sympy
 
-from ..engine.symbols import as_expr
-from .format import expr_text
+from nodeterm.engine.symbols import as_expr
+from nodeterm.present.format import expr_text
 
 
 def _eq(e) -> dict:
@@ -46,10 +46,10 @@ def solution_dict(system, solution=None, numeric: bool = False) -> dict:
 
 def analysis_dict(system, solution) -> dict:
     """The additive analysis keys: transfer functions, op-amp limits, cautions, the linear-model note."""
-    from ..engine.analysis.cautions import LINEAR_NOTE, merge, node_cautions, source_cautions
-    from ..engine.analysis.limits import check_limits, limit_warnings, limited_opamps
-    from ..engine.analysis.transfer import transfer_functions
-    from .analysis import limits_dict, transfer_dict
+    from nodeterm.engine.analysis.cautions import LINEAR_NOTE, merge, node_cautions, source_cautions
+    from nodeterm.engine.analysis.limits import check_limits, limit_warnings, limited_opamps
+    from nodeterm.engine.analysis.transfer import transfer_functions
+    from nodeterm.present.analysis import limits_dict, transfer_dict
     tfs = transfer_functions(solution, system.circuit)
     checks = check_limits(system, solution) if limited_opamps(system.circuit) else []
     warnings = merge(system.warnings, source_cautions(system.circuit, system.values),
@@ -107,7 +107,7 @@ def verdict_dict(v) -> dict:
 
 def check_dict(system, verdicts) -> dict:
     """What ``nodeterm check --json`` prints."""
-    from nodeterm.engine.audit import exit_status, summary
+    from nodeterm.engine.audit.verdicts import exit_status, summary
     return {"file": system.circuit.path, "title": system.circuit.title, "summary": summary(verdicts),
             "exit_status": exit_status(verdicts), "verdicts": [verdict_dict(v) for v in verdicts]}
 

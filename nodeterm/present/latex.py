@@ -9,8 +9,8 @@ from __future__ import annotations
 
 import sympy
 
-from ..engine.symbols import as_expr
-from .text import to_ascii
+from nodeterm.engine.symbols import as_expr
+from nodeterm.present.text import to_ascii
 
 _SPECIAL = {"\\": r"\textbackslash{}", "&": r"\&", "%": r"\%", "$": r"\$", "#": r"\#", "_": r"\_",
             "{": r"\{", "}": r"\}", "~": r"\textasciitilde{}", "^": r"\textasciicircum{}",
@@ -77,7 +77,7 @@ def render_latex(system, solution, verdicts=None, note: str = "") -> str:
         rows += [(rf"\text{{{escape(name)}}}", tex(v), c.find[name].text) for name, v in solution.find.items()]
         out += _align(rows) + [""]
     if verdicts:
-        from nodeterm.engine.audit import summary
+        from nodeterm.engine.audit.verdicts import summary
         out += [r"\section*{Audit of the hand derivation}", escape(summary(verdicts)) + ".", r"\begin{itemize}"]
         for v in verdicts:
             out.append(rf"  \item \textbf{{{escape(v.name)}}} ({escape(v.status)}): \texttt{{{escape(v.text)}}}"

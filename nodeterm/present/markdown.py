@@ -7,7 +7,7 @@ Pure function of the engine's record; no Textual.
 
 from __future__ import annotations
 
-from .format import equation_text, expr_text, value_text
+from nodeterm.present.format import equation_text, expr_text, value_text
 
 
 def _cell(text: str) -> str:
@@ -78,7 +78,7 @@ def render_markdown(system, solution, verdicts=None, note: str = "") -> str:
                                                           for name, v in solution.find.items()])
             out.append("")
     if verdicts:
-        from nodeterm.engine.audit import summary
+        from nodeterm.engine.audit.verdicts import summary
         out += ["## Audit of the hand derivation", "", summary(verdicts) + ".", ""]
         out += table(["claim", "as written", "verdict", "explanation"],
                      [[v.name, _code(v.text), v.status, v.message] for v in verdicts])

@@ -10,14 +10,14 @@ from __future__ import annotations
 
 import json
 
-from ..engine.numeric import number_text
-from .format import eng
+from nodeterm.engine.solving.numeric import number_text
+from nodeterm.present.format import eng
 
 
 def numeric_dict(circuit, solution, system=None) -> dict:
     """The numeric solve result as plain data (the ``solve --json`` fields plus ``numeric``)."""
     if system is not None:
-        from .jsonout import solution_dict
+        from nodeterm.present.jsonout import solution_dict
         out = solution_dict(system)
     else:
         out = {

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from .format import equation_text, expr_text, value_text
+from nodeterm.present.format import equation_text, expr_text, value_text
 
 UNIT_V, UNIT_A = "V", "A"
 
@@ -110,7 +110,7 @@ def verdict_lines(verdicts, path: str | None = None) -> list[str]:
 
 def verdicts_text(verdicts, path: str | None = None, ascii_only: bool = False) -> str:
     """The audit section of a report, ending with the one-line summary."""
-    from nodeterm.engine.audit import summary
+    from nodeterm.engine.audit.verdicts import summary
     lines = verdict_lines(verdicts, path) + [summary(verdicts)]
     return to_ascii("\n".join(lines) + "\n") if ascii_only else "\n".join(lines) + "\n"
 

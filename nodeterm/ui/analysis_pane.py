@@ -17,9 +17,9 @@ from __future__ import annotations
 from textual.containers import VerticalScroll
 from textual.widgets import Static
 
-from .response_pane import ResponseView
-from .safety import describe, logger
-from .tolerance_view import ToleranceView
+from nodeterm.ui.response_pane import ResponseView
+from nodeterm.ui.safety import describe, logger
+from nodeterm.ui.tolerance_view import ToleranceView
 
 KEYS_LINE = ("g next [find] plot  w write CSV  m Monte Carlo  c cancel  "
              "PgUp/PgDn scroll")
@@ -38,12 +38,12 @@ def _section(title: str, make) -> list[str]:
 
 def analysis_lines(system, solution) -> list[str]:
     """Every analysis that applies to the circuit, as text lines."""
-    from ..engine.analysis.cautions import LINEAR_NOTE, merge, node_cautions, source_cautions
-    from ..engine.analysis.limits import check_limits, limit_warnings, limited_opamps
-    from ..engine.analysis.realopamp import compare_models, has_real_model
-    from ..engine.analysis.sensitivity import nominal_values, scalar_quantities, sensitivities
-    from ..engine.analysis.transfer import transfer_functions
-    from ..present import analysis as show
+    from nodeterm.engine.analysis.cautions import LINEAR_NOTE, merge, node_cautions, source_cautions
+    from nodeterm.engine.analysis.limits import check_limits, limit_warnings, limited_opamps
+    from nodeterm.engine.analysis.realopamp import compare_models, has_real_model
+    from nodeterm.engine.analysis.sensitivity import nominal_values, scalar_quantities, sensitivities
+    from nodeterm.engine.analysis.transfer import transfer_functions
+    from nodeterm.present import analysis as show
 
     circuit = system.circuit
     out: list[str] = []

@@ -25,21 +25,21 @@ from textual.reactive import var
 from textual.widgets import Footer, Input, Static, TabbedContent, TabPane
 from textual.worker import get_current_worker
 
-from ..engine import InputError, load_circuit
-from ..present.text import matrix_lines, report, steps_lines
-from . import solver_process, threads
-from .analysis_pane import AnalysisPane, analysis_lines
-from .circuit_pane import CircuitPane
-from .claims_pane import ClaimsPane
-from ..present.export import EXTENSIONS, FORMATS, render, write_atomic
-from .dialogs import ConfirmScreen, ExportScreen, HelpScreen, PathScreen
-from .keys import KEYS, help_text
-from .matrix_pane import MatrixPane
-from .results_pane import ResultsPane, results_text
-from .safety import describe, guarded, logger
-from .session import Session
-from .steps_pane import StepsPane
-from .values_pane import ValuesPane
+from nodeterm.engine import InputError, load_circuit
+from nodeterm.present.text import matrix_lines, report, steps_lines
+from nodeterm.ui import solver_process, threads
+from nodeterm.ui.analysis_pane import AnalysisPane, analysis_lines
+from nodeterm.ui.circuit_pane import CircuitPane
+from nodeterm.ui.claims_pane import ClaimsPane
+from nodeterm.present.export import EXTENSIONS, FORMATS, render, write_atomic
+from nodeterm.ui.dialogs import ConfirmScreen, ExportScreen, HelpScreen, PathScreen
+from nodeterm.ui.keys import KEYS, help_text
+from nodeterm.ui.matrix_pane import MatrixPane
+from nodeterm.ui.results_pane import ResultsPane, results_text
+from nodeterm.ui.safety import describe, guarded, logger
+from nodeterm.ui.session import Session
+from nodeterm.ui.steps_pane import StepsPane
+from nodeterm.ui.values_pane import ValuesPane
 
 PANES = ("circuit", "steps", "values", "matrix", "results", "claims", "analysis")
 POLL_SECONDS = 1.0
@@ -125,7 +125,7 @@ class Workbench(App):
     def open_path(self, path: str | None) -> None:
         """Open a circuit file (the bundled demo when ``path`` is None)."""
         if path is None:
-            from ..cli import demo_path
+            from nodeterm.cli import demo_path
             path = demo_path()
         try:
             self.session.open(path)
@@ -337,7 +337,7 @@ class Workbench(App):
 
     @work(thread=True, exclusive=True, group="audit", description="checking the claims")
     def _audit_worker(self, system, solution, typed: dict) -> None:
-        from ..engine.audit import audit_claims
+        from nodeterm.engine.audit.verdicts import audit_claims
         worker = get_current_worker()
         try:
             verdicts = audit_claims(system, None, solution=solution)
@@ -353,8 +353,8 @@ class Workbench(App):
     def _audited(self, system, verdicts, error) -> None:
         if system is not self.system:
             return
-        from ..engine.audit import summary
-        from ..present.text import verdict_lines
+        from nodeterm.engine.audit.verdicts import summary
+        from nodeterm.present.text import verdict_lines
         pane = self.query_one(ClaimsPane)
         if error is not None:
             pane.show_verdicts([f"claims not checked: {describe(error)}"])

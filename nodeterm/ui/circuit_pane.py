@@ -5,8 +5,8 @@ from __future__ import annotations
 from textual.containers import VerticalScroll
 from textual.widgets import Static
 
-from ..present.format import expr_text
-from .describe import node_roles, part_nodes, part_value
+from nodeterm.present.format import expr_text
+from nodeterm.ui.describe import node_roles, part_nodes, part_value
 
 
 def circuit_lines(system) -> list[str]:

@@ -13,7 +13,7 @@ from textual.containers import Vertical, VerticalScroll
 from textual.message import Message
 from textual.widgets import Input, Static
 
-from .safety import guarded
+from nodeterm.ui.safety import guarded
 
 HELP = ("Type a claim, Enter checks it against the node equations:\n"
         "  an equation, e.g.  (V_inv - V_in)/Rin + (V_inv - V_out)/Rf = 0\n"

@@ -5,7 +5,7 @@ Reads the engine's immutable circuit model; computes nothing about the circuit.
 
 from __future__ import annotations
 
-from ..present.format import expr_text
+from nodeterm.present.format import expr_text
 
 SOURCE_KINDS = ("vsource", "isource", "vcvs", "vccs", "ccvs", "cccs")
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 from textual.containers import ScrollableContainer
 from textual.widgets import Static
 
-from ..present.text import matrix_lines
+from nodeterm.present.text import matrix_lines
 
 INTRO = ("A x = b after the substitutions so far: one row per equation left to\n"
          "solve, one column per unknown (arrow keys scroll when it is wide).")

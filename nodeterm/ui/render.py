@@ -12,7 +12,7 @@ from functools import lru_cache
 
 import sympy
 
-from ..present.format import equation_text, expr_text
+from nodeterm.present.format import equation_text, expr_text
 
 MARK = "▶"       # marks the selected item (a textual marker, legible without colour)
 TIED = "*"       # marks items tied to the selection

@@ -20,8 +20,8 @@ from textual.containers import Vertical
 from textual.widgets import Static
 from textual.worker import get_current_worker
 
-from ..present.format import eng
-from .safety import describe, guarded
+from nodeterm.present.format import eng
+from nodeterm.ui.safety import describe, guarded
 
 MIN_PLOT_HEIGHT = 19
 """Lines; below this plotext's tick labels of the two panels start to run into each other."""
@@ -39,7 +39,7 @@ class Response:
 
 def responses_of(system, solution) -> list[Response]:
     """The transfer function of every [find] quantity in s, with its response when H(s) is numeric."""
-    from ..engine.analysis.transfer import bandwidth_3db, frequency_response, transfer_functions
+    from nodeterm.engine.analysis.transfer import bandwidth_3db, frequency_response, transfer_functions
     out = []
     for name, tf in transfer_functions(solution, system.circuit).items():
         if tf.is_numeric:
@@ -104,7 +104,7 @@ class ResponseView(Vertical):
 
     @work(thread=True, exclusive=True, group="response", description="frequency response")
     def _worker(self, system, solution) -> None:
-        from .solver_process import Cancelled, call_in_child
+        from nodeterm.ui.solver_process import Cancelled, call_in_child
         worker = get_current_worker()
         import plotext  # noqa: F401 - its first import takes ~0.2 s: here, not on the event loop when drawing
         try:  # in a child process: SymPy and FLINT would hold the GIL, and the event loop with it
@@ -179,7 +179,7 @@ class ResponseView(Vertical):
                         "Press k to substitute the values the file gives (or v to type one);\n"
                         "the magnitude and phase plots then appear here.")
             return
-        from ..present.analysis import response_plot
+        from nodeterm.present.analysis import response_plot
         self._head(f"{r.name}: {band_text(r)}{count}")
         plot.update(response_plot(r.response, *size))
 
@@ -190,9 +190,9 @@ class ResponseView(Vertical):
     # --- CSV ---------------------------------------------------------------------
     def csv_text(self) -> str:
         """f, |H| dB and phase of every numeric [find] response over one common log range."""
-        from ..engine.analysis.transfer import frequency_response
-        from ..engine.errors import InputError
-        from ..present.analysis import response_csv
+        from nodeterm.engine.analysis.transfer import frequency_response
+        from nodeterm.engine.errors import InputError
+        from nodeterm.present.analysis import response_csv
         numeric = [r for r in self.items if r.response is not None]
         if not numeric:
             raise InputError("nothing to write: no [find] quantity has a numeric frequency response yet",
@@ -208,8 +208,8 @@ class ResponseView(Vertical):
 
     def write_csv(self, path: str, force: bool = False) -> bool:
         """Write the CSV atomically; an existing file is replaced only with ``force``."""
-        from ..engine.errors import InputError
-        from ..present.export import write_atomic
+        from nodeterm.engine.errors import InputError
+        from nodeterm.present.export import write_atomic
         try:
             write_atomic(path, self.csv_text(), force=force)
         except InputError as err:
@@ -220,7 +220,7 @@ class ResponseView(Vertical):
 
     def ask_csv_path(self, circuit_path: str | None) -> None:
         """Ask where to write the CSV; ask again before replacing a file."""
-        from .dialogs import ConfirmScreen, PathScreen
+        from nodeterm.ui.dialogs import ConfirmScreen, PathScreen
         if self.computing or self.system is None:  # asked before the responses are known
             self.pending_csv = (circuit_path,)
             self.app.notify("computing the frequency response; the CSV dialog opens when it is ready",

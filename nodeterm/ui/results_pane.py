@@ -11,9 +11,9 @@ import textwrap
 from textual.containers import ScrollableContainer
 from textual.widgets import Static
 
-from ..present.format import value_text
-from . import render
-from .describe import part_group, part_nodes
+from nodeterm.present.format import value_text
+from nodeterm.ui import render
+from nodeterm.ui.describe import part_group, part_nodes
 
 HEADINGS = {
     "part": "Part currents (from its first node to its second)",

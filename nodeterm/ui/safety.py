@@ -13,7 +13,7 @@ import logging
 import os
 from pathlib import Path
 
-from ..engine import InputError
+from nodeterm.engine import InputError
 
 _logger: logging.Logger | None = None
 

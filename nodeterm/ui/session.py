@@ -11,8 +11,8 @@ from __future__ import annotations
 import os
 from dataclasses import dataclass, field
 
-from ..engine import InputError, build_system, load_circuit
-from ..engine.system import System
+from nodeterm.engine import InputError, build_system, load_circuit
+from nodeterm.engine.equations.system import System
 
 
 @dataclass

@@ -24,7 +24,7 @@ from typing import Callable
 POLL_SECONDS = 0.05
 IN_CHILD = True
 """False runs the work in the calling thread (tests that patch the engine in this process use it)."""
-PRELOAD = ["nodeterm.engine", "nodeterm.engine.solve", "nodeterm.engine.fastsolve", "nodeterm.engine.analysis.transfer",
+PRELOAD = ["nodeterm.engine", "nodeterm.engine.solving.solve", "nodeterm.engine.solving.fastsolve", "nodeterm.engine.analysis.transfer",
            "nodeterm.ui.matrix_pane", "nodeterm.ui.results_pane", "nodeterm.ui.analysis_pane",
            "nodeterm.ui.response_pane", "nodeterm.ui.solver_process"]
 
@@ -48,15 +48,15 @@ class Solved:
 
 def solve_and_print(system, two_d: bool, width: int, send: Callable[[str, object], None]) -> None:
     """Matrix, then solution, each with the text the panes show; ``send`` passes them on."""
-    from .matrix_pane import matrix_text
-    from .results_pane import results_text
+    from nodeterm.ui.matrix_pane import matrix_text
+    from nodeterm.ui.results_pane import results_text
     matrix = system.matrix()
     send("matrix", Solved(matrix, matrix_text(matrix)))
     solution = system.solve()
     try:
         printed = results_text(system, solution, two_d, width)
     except Exception as exc:  # noqa: BLE001 - the solution is still good for the other panes
-        from .safety import describe
+        from nodeterm.ui.safety import describe
         printed = f"! could not print the results: {describe(exc)}"
     send("solved", Solved(matrix, "", solution, printed))
 

@@ -17,9 +17,9 @@ from textual.reactive import reactive
 from textual.widgets import OptionList, Static
 from textual.widgets.option_list import Option
 
-from . import render
-from .safety import guarded
-from .describe import part_nodes
+from nodeterm.ui import render
+from nodeterm.ui.safety import guarded
+from nodeterm.ui.describe import part_nodes
 
 TERMS_KINDS = ("kcl", "supernode_kcl")
 

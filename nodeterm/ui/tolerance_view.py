@@ -18,7 +18,7 @@ from textual.containers import Vertical
 from textual.widgets import ProgressBar, Static
 from textual.worker import get_current_worker
 
-from .safety import describe, guarded
+from nodeterm.ui.safety import describe, guarded
 
 SAMPLES = 100_000
 SEED = 1
@@ -50,8 +50,8 @@ def tolerance_study(system, samples: int = SAMPLES, seed: int = SEED, progress=N
     the command line). A quantity that still depends on a parameter without a value is left out
     and named in ``skipped``.
     """
-    from ..engine.analysis.sensitivity import nominal_values, scalar_quantities, sensitivities
-    from ..engine.analysis.tolerance import monte_carlo, spreads, worst_case
+    from nodeterm.engine.analysis.sensitivity import nominal_values, scalar_quantities, sensitivities
+    from nodeterm.engine.analysis.tolerance import monte_carlo, spreads, worst_case
     circuit = system.circuit
     nominal = nominal_values(circuit, dict(system.values))
     spread_list = spreads(circuit, nominal)
@@ -189,7 +189,7 @@ class ToleranceView(Vertical):
             self._show(*self._texts(self.study, samples, seed))
 
     def _texts(self, study: Study, samples: int, seed: int) -> tuple[str, str, str]:
-        from ..present.analysis import histogram_plot, tolerance_lines
+        from nodeterm.present.analysis import histogram_plot, tolerance_lines
         head = f"Monte Carlo and worst case: {samples} samples, seed {seed} (m runs again)"
         lines = [f"(same numbers: nodeterm tolerance FILE --samples {samples} --seed {seed})"]
         lines += tolerance_lines(study.mc, study.wc, study.spreads)

@@ -14,9 +14,9 @@ from textual.message import Message
 from textual.widgets import Input, Label, OptionList, Static
 from textual.widgets.option_list import Option
 
-from ..present.format import value_text
-from .render import MARK
-from .safety import guarded
+from nodeterm.present.format import value_text
+from nodeterm.ui.render import MARK
+from nodeterm.ui.safety import guarded
 
 HELP = ("Pick a parameter (up/down), Enter or Tab to the value box, type a value such as 4.7k, 100nF or "
         "Gain*Rin, Enter applies.  k: all known values   u: undo last   Esc: leave the box")

@@ -25,8 +25,8 @@ from pathlib import Path
 
 import pytest
 
-from nodeterm.engine.expr import MAX_DEPTH, MAX_EXPONENT, MAX_LENGTH, MAX_LITERAL_DIGITS, MAX_NUMBER_BITS
-from nodeterm.engine.loader import MAX_FILE_BYTES, MAX_PARTS
+from nodeterm.engine.circuit.expr import MAX_DEPTH, MAX_EXPONENT, MAX_LENGTH, MAX_LITERAL_DIGITS, MAX_NUMBER_BITS
+from nodeterm.engine.circuit.loader import MAX_FILE_BYTES, MAX_PARTS
 
 CORPUS = Path(__file__).parent / "corpus"
 HANG_GUARD = 120  # seconds; a refusal takes about two (interpreter and SymPy start-up)

@@ -22,7 +22,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from nodeterm.engine import InputError, build_system, parse_circuit
-from nodeterm.engine.expr import ExpressionError, parse_expression
+from nodeterm.engine.circuit.expr import ExpressionError, parse_expression
 
 SCALE = int(os.environ.get("NODETERM_FUZZ", "1"))
 FUZZ = settings(max_examples=150 * SCALE, deadline=None,

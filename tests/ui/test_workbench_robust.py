@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import threading
 
-from nodeterm.engine.system import System
+from nodeterm.engine.equations.system import System
 from nodeterm.ui import solver_process
 from nodeterm.ui.app import Workbench
 from nodeterm.ui.steps_pane import StepsPane

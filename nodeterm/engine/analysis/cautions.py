@@ -11,9 +11,9 @@ from __future__ import annotations
 
 import sympy
 
-from ..symbols import as_expr
-from ..errors import Warning
-from ..symbols import param
+from nodeterm.engine.symbols import as_expr
+from nodeterm.engine.errors import Warning
+from nodeterm.engine.symbols import param
 
 ELV_AC_RMS = 50
 """Extra-low-voltage limit for AC, volts rms (IEC 61140, from memory)."""
@@ -64,7 +64,7 @@ def source_cautions(circuit, values: dict | None = None) -> list[Warning]:
         circuit: the circuit.
         values: parameter name -> value overriding the file (e.g. from ``--set``).
     """
-    from .realopamp import resolved_values
+    from nodeterm.engine.analysis.realopamp import resolved_values
     subs = {param(n): v for n, v in resolved_values(circuit, values).items()}
     out = []
     for p in circuit.parts:

@@ -17,11 +17,11 @@ from dataclasses import dataclass, replace
 import numpy as np
 import sympy
 
-from ..symbols import as_expr
-from ..errors import InputError, Warning
-from ..symbols import param, s
-from .realopamp import prepared
-from .transfer import frequency_response, transfer_function
+from nodeterm.engine.symbols import as_expr
+from nodeterm.engine.errors import InputError, Warning
+from nodeterm.engine.symbols import param, s
+from nodeterm.engine.analysis.realopamp import prepared
+from nodeterm.engine.analysis.transfer import frequency_response, transfer_function
 
 
 @dataclass(frozen=True)
@@ -156,12 +156,12 @@ def compliance_range(circuit, values: dict | None = None, load: str | None = Non
     if load is not None and load not in circuit.parameters:
         raise InputError(f"--load {load!r} is not a parameter of the circuit",
                          hint="parameters: " + ", ".join(circuit.parameters), file=circuit.path)
-    from .realopamp import resolved_values
+    from nodeterm.engine.analysis.realopamp import resolved_values
     raw = {n: p.value for n, p in circuit.parameters.items() if p.value is not None and n != load}
     circuit_wo_load = replace(circuit, parameters={n: (replace(p, value=None) if n == load else p)
                                                    for n, p in circuit.parameters.items()})
     known = resolved_values(circuit_wo_load, {n: v for n, v in values.items() if n != load}) if raw or values else {}
-    from ..system import build_system
+    from nodeterm.engine.equations.system import build_system
     system = build_system(circuit).substitute(known) if known else build_system(circuit)
     sol = system.solve()
     opamps = limited_opamps(circuit)

@@ -1,6 +1,6 @@
 """The same [find] quantity under the ideal op-amp model and under the real one, side by side.
 
-The real model lives in :class:`nodeterm.engine.parts.OpAmp` (``gain``, ``gbw``, ``rin``,
+The real model lives in :class:`nodeterm.engine.circuit.parts.OpAmp` (``gain``, ``gbw``, ``rin``,
 ``rout``); here the circuit is solved twice -- as written, and with every op-amp made
 ideal by :func:`ideal_variant` -- and the results are compared: the relative error at DC
 and at one frequency, and the -3 dB bandwidth of each.
@@ -13,12 +13,12 @@ from typing import TYPE_CHECKING
 
 import sympy
 
-from ..symbols import as_expr
-from ..system import System, build_system
-from ..symbols import param, s
+from nodeterm.engine.symbols import as_expr
+from nodeterm.engine.equations.system import System, build_system
+from nodeterm.engine.symbols import param, s
 
 if TYPE_CHECKING:
-    from .transfer import Bandwidth
+    from nodeterm.engine.analysis.transfer import Bandwidth
 
 REAL_KEYS = ("gbw", "rin", "rout")
 DEFAULT_FREQUENCY = 1000.0
@@ -33,7 +33,7 @@ def has_real_model(circuit) -> bool:
 def ideal_variant(circuit):
     """A copy of ``circuit`` with every op-amp ideal (gain, gbw, rin, rout dropped; rails kept).
 
-    >>> from nodeterm.engine.loader import parse_circuit
+    >>> from nodeterm.engine.circuit.loader import parse_circuit
     >>> c = parse_circuit('''
     ... [parts]
     ... V1 = { kind = "vsource", nodes = ["in", "gnd"], value = 1 }
@@ -88,7 +88,7 @@ class ModelComparison:
 def _dc(expr: sympy.Expr) -> sympy.Expr:
     if not expr.has(s):
         return expr
-    from .transfer import transfer_function  # NumPy only when a response is asked for
+    from nodeterm.engine.analysis.transfer import transfer_function  # NumPy only when a response is asked for
     tf = transfer_function(expr)
     return tf.dc_gain
 
@@ -101,14 +101,14 @@ def _value_at(expr: sympy.Expr, f_hz: float) -> complex | None:
 def _bandwidth(expr: sympy.Expr) -> Bandwidth | None:
     if not expr.has(s) or expr.free_symbols - {s}:
         return None
-    from .transfer import bandwidth_3db, transfer_function
+    from nodeterm.engine.analysis.transfer import bandwidth_3db, transfer_function
     return bandwidth_3db(transfer_function(expr))
 
 
 def _value(circuit, v) -> sympy.Expr:
     """A value given by a caller: text goes through our expression parser, never sympify."""
     if isinstance(v, str):
-        from ..expr import parse_expression
+        from nodeterm.engine.circuit.expr import parse_expression
         params = circuit.parameters
         return parse_expression(v, lambda n: param(n) if n in params else None)
     return as_expr(v)
@@ -119,7 +119,7 @@ def resolved_values(circuit, values: dict | None = None) -> dict[str, sympy.Expr
 
     An override reaches the parameters written in terms of it (``Cf = "2*Cg"`` follows ``Cg``).
 
-    >>> from nodeterm.engine.loader import parse_circuit
+    >>> from nodeterm.engine.circuit.loader import parse_circuit
     >>> c = parse_circuit('''
     ... [parameters]
     ... Cg = "10n"

@@ -15,10 +15,10 @@ from dataclasses import dataclass
 
 import sympy
 
-from ..symbols import as_expr
-from ..system import build_system
-from ..symbols import param, s
-from .transfer import _simplify_positive, transfer_function
+from nodeterm.engine.symbols import as_expr
+from nodeterm.engine.equations.system import build_system
+from nodeterm.engine.symbols import param, s
+from nodeterm.engine.analysis.transfer import _simplify_positive, transfer_function
 
 
 def normalized_sensitivity(f: sympy.Expr, x: sympy.Symbol) -> sympy.Expr:
@@ -79,7 +79,7 @@ class Sensitivity:
 
 def nominal_values(circuit, values: dict | None = None) -> dict[sympy.Symbol, sympy.Expr]:
     """Parameter symbol -> resolved value (file values, then ``values``), numbers only."""
-    from .realopamp import resolved_values
+    from nodeterm.engine.analysis.realopamp import resolved_values
     return {param(n): v for n, v in resolved_values(circuit, values).items() if v.is_number}
 
 

@@ -21,10 +21,10 @@ from typing import Callable
 import numpy as np
 import sympy
 
-from ..symbols import as_expr
-from ..errors import InputError
-from ..symbols import param, s
-from .sensitivity import Sensitivity, sign_of
+from nodeterm.engine.symbols import as_expr
+from nodeterm.engine.errors import InputError
+from nodeterm.engine.symbols import param, s
+from nodeterm.engine.analysis.sensitivity import Sensitivity, sign_of
 
 DISTRIBUTIONS = ("uniform", "normal")
 MAX_CORNERS_PARAMS = 12

@@ -19,8 +19,8 @@ from dataclasses import dataclass, field
 import numpy as np
 import sympy
 
-from ..symbols import as_expr
-from ..symbols import s
+from nodeterm.engine.symbols import as_expr
+from nodeterm.engine.symbols import s
 
 SQRT2_DB = 20 * math.log10(math.sqrt(2))  # 3.0103 dB
 MAX_TERMS_FOR_DETAIL = 200

@@ -38,8 +38,8 @@ from typing import Callable
 
 import sympy
 
-from .symbols import as_expr
-from .errors import InputError
+from nodeterm.engine.symbols import as_expr
+from nodeterm.engine.errors import InputError
 
 MAX_LENGTH = 10_000
 MAX_DEPTH = 64
@@ -409,7 +409,7 @@ def parse_expression(text: str, resolve: Resolver = _no_names) -> sympy.Expr:
     >>> parse_expression("10^10^10")
     Traceback (most recent call last):
     ...
-    nodeterm.engine.expr.ExpressionError: <input> (column 4): error: exponent 10000000000 is too large (limit 64); circuit values never need such powers; check the expression
+    nodeterm.engine.circuit.expr.ExpressionError: <input> (column 4): error: exponent 10000000000 is too large (limit 64); circuit values never need such powers; check the expression
     """
     if not isinstance(text, str):
         raise ExpressionError(f"expected text, got {type(text).__name__}", column=1)

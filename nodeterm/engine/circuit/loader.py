@@ -19,13 +19,13 @@ from pathlib import Path
 
 import sympy
 
-from .errors import InputError, Warning
-from .expr import MAX_LITERAL_DIGITS, ExpressionError, parse_expression
-from .file_lines import _Lines
-from .model import Circuit, FindItem, HandItem, Parameter
-from .parts import KINDS, Part
-from .size_limits import _SizeLimits
-from .symbols import I, V, param, s
+from nodeterm.engine.errors import InputError, Warning
+from nodeterm.engine.circuit.expr import MAX_LITERAL_DIGITS, ExpressionError, parse_expression
+from nodeterm.engine.circuit.file_lines import _Lines
+from nodeterm.engine.circuit.model import Circuit, FindItem, HandItem, Parameter
+from nodeterm.engine.circuit.parts import KINDS, Part
+from nodeterm.engine.circuit.size_limits import _SizeLimits
+from nodeterm.engine.symbols import I, V, param, s
 
 MAX_FILE_BYTES = 5_000_000
 MAX_PARTS = 20_000

@@ -29,7 +29,7 @@ from __future__ import annotations
 
 import sympy
 
-from .symbols import as_expr
+from nodeterm.engine.symbols import as_expr
 from sympy.solvers.solveset import NonlinearError
 
 _ONE = "1"  # key of the constant coordinate in a linear form

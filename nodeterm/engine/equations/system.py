@@ -27,15 +27,15 @@ from dataclasses import dataclass, replace
 
 import sympy
 
-from .symbols import as_expr
-from .equation import KCL_KINDS, OPAMP_KINDS, Equation, Step, Term  # noqa: F401 - imported from here too
-from .errors import InputError, Warning
-from .expr import ExpressionError, parse_expression
-from .model import Circuit
+from nodeterm.engine.symbols import as_expr
+from nodeterm.engine.equations.equation import KCL_KINDS, OPAMP_KINDS, Equation, Step, Term  # noqa: F401 - imported from here too
+from nodeterm.engine.errors import InputError, Warning
+from nodeterm.engine.circuit.expr import ExpressionError, parse_expression
+from nodeterm.engine.circuit.model import Circuit
 # _Context (the context parts write their currents in) is imported from here by the solvers.
-from .procedure import (_Context, _check_connected, _dc_path_warnings, kcl_step, opamp_step, reference_step,
+from nodeterm.engine.equations.procedure import (_Context, _check_connected, _dc_path_warnings, kcl_step, opamp_step, reference_step,
                         sources_step, substitution_step, trees, voltage_tree)
-from .symbols import param
+from nodeterm.engine.symbols import param
 
 
 @dataclass(frozen=True)
@@ -51,7 +51,7 @@ class MatrixForm:
 def build_system(circuit: Circuit) -> "System":
     """Write the node equations of ``circuit`` and record the procedure.
 
-    >>> from nodeterm.engine.loader import parse_circuit
+    >>> from nodeterm.engine.circuit.loader import parse_circuit
     >>> c = parse_circuit('''
     ... [parts]
     ... Vs = { kind = "vsource", nodes = ["in", "gnd"], value = "Vin" }
@@ -87,7 +87,7 @@ def build_system(circuit: Circuit) -> "System":
     reduced, eliminated, red_unknowns, substitution = substitution_step(
         circuit, known, source_eqs + kcl_eqs + opamp_eqs, unknowns)
     steps = [reference, sources, kcl, opamps, substitution]
-    from .analysis.cautions import circuit_warnings  # hazardous sources, real-model keys without effect
+    from nodeterm.engine.analysis.cautions import circuit_warnings  # hazardous sources, real-model keys without effect
     warnings = list(circuit.warnings) + _dc_path_warnings(circuit) + circuit_warnings(circuit)
     return System(circuit=circuit, equations=equations, unknowns=tuple(unknowns), skipped=skipped,
                   steps=tuple(steps), reduced_equations=tuple(reduced), reduced_unknowns=red_unknowns,
@@ -215,6 +215,6 @@ class System:
         return form
 
     def solve(self):
-        """Solve exactly; see :func:`nodeterm.engine.solve.solve_system`."""
-        from .solve import solve_system
+        """Solve exactly; see :func:`nodeterm.engine.solving.solve.solve_system`."""
+        from nodeterm.engine.solving.solve import solve_system
         return solve_system(self)

@@ -21,11 +21,11 @@ from __future__ import annotations
 
 import math
 
-from .errors import InputError
-from .expr import MAX_EXPONENT, MAX_NUMBER_BITS, MAX_TERMS, size_bound, term_bound
-from .model import Parameter
-from .parts import Part
-from .symbols import param
+from nodeterm.engine.errors import InputError
+from nodeterm.engine.circuit.expr import MAX_EXPONENT, MAX_NUMBER_BITS, MAX_TERMS, size_bound, term_bound
+from nodeterm.engine.circuit.model import Parameter
+from nodeterm.engine.circuit.parts import Part
+from nodeterm.engine.symbols import param
 
 
 class _SizeLimits:

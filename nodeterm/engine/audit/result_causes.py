@@ -27,8 +27,8 @@ import random
 
 import sympy
 
-from .symbols import as_expr
-from .claim_forms import _r, _t, _zero
+from nodeterm.engine.symbols import as_expr
+from nodeterm.engine.audit.claim_forms import _r, _t, _zero
 
 _NUMERIC_POINTS = 6
 _NUMERIC_TOL = 1e-9

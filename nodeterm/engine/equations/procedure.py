@@ -1,6 +1,6 @@
 """The steps of the node-voltage procedure, one function per step.
 
-:func:`nodeterm.engine.system.build_system` runs them in order and records
+:func:`nodeterm.engine.equations.system.build_system` runs them in order and records
 what each returns:
 
 0. :func:`voltage_tree` and :func:`trees`: the voltage-defining parts (sources,
@@ -27,11 +27,11 @@ from __future__ import annotations
 
 import sympy
 
-from .equation import OPAMP_KINDS, Equation, Step, Term, _label
-from .errors import CircuitError, Warning
-from .model import Circuit
-from .parts import Part
-from .symbols import I, V
+from nodeterm.engine.equations.equation import OPAMP_KINDS, Equation, Step, Term, _label
+from nodeterm.engine.errors import CircuitError, Warning
+from nodeterm.engine.circuit.model import Circuit
+from nodeterm.engine.circuit.parts import Part
+from nodeterm.engine.symbols import I, V
 
 
 class _Context:

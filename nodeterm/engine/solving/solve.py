@@ -16,15 +16,15 @@ from dataclasses import dataclass, field
 
 import sympy
 
-from .symbols import as_expr
+from nodeterm.engine.symbols import as_expr
 from sympy.core.exprtools import _keep_coeff
 from sympy.polys.matrices import DomainMatrix
 from sympy.polys.matrices.exceptions import DMNonInvertibleMatrixError
 from sympy.polys.polyutils import _sort_gens
 
-from . import fastsolve
-from .errors import SolveError
-from .symbols import I, V, param, s
+from nodeterm.engine.solving import fastsolve
+from nodeterm.engine.errors import SolveError
+from nodeterm.engine.symbols import I, V, param, s
 
 
 @dataclass(frozen=True)
@@ -257,7 +257,7 @@ def solve_system_sympy(system) -> Solution:
         if n != ref:
             voltages[n] = values[V(n)]
 
-    from .system import _Context  # the same context the equations were written with
+    from nodeterm.engine.equations.system import _Context  # the same context the equations were written with
     ctx = _Context(circuit, set(system.needed))
     full = {**{V(n): v for n, v in voltages.items() if n != ref}, **values}
 
@@ -303,5 +303,5 @@ def solve_system_sympy(system) -> Solution:
 
 def diagnose_singular(system, m) -> SolveError:
     """Explain in circuit terms why the node equations have no unique solution."""
-    from .diagnose import explain_singular
+    from nodeterm.engine.solving.diagnose import explain_singular
     return explain_singular(system, m)

@@ -20,7 +20,7 @@ from typing import ClassVar, Protocol
 
 import sympy
 
-from .symbols import s
+from nodeterm.engine.symbols import s
 
 
 class Context(Protocol):

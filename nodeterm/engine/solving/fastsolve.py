@@ -12,7 +12,7 @@ linear solver over a polynomial ring. What is written here is only the glue:
 * :func:`solve_system_fast` derives every current and ``[find]`` quantity in the same
   arithmetic and reduces each result once, by one polynomial GCD.
 
-Results come out in the canonical form of :func:`nodeterm.engine.solve.canonical`: numerator and
+Results come out in the canonical form of :func:`nodeterm.engine.solving.solve.canonical`: numerator and
 denominator coprime over the integers, the denominator's leading coefficient positive in lex order
 of SymPy's own generator order (so the fraction is the one ``sympy.cancel`` gives), collected in s.
 Small results are turned into SymPy expressions; a result with more than :func:`large_terms` terms
@@ -34,12 +34,12 @@ import time
 
 import sympy
 
-from .symbols import as_expr
+from nodeterm.engine.symbols import as_expr
 from sympy.polys.polyutils import _sort_gens
 
-from .errors import SolveError
-from .fraction_free import TooManyTerms, cramer, determinant  # noqa: F401 - determinant is imported from here too
-from .symbols import I, V, param, s
+from nodeterm.engine.errors import SolveError
+from nodeterm.engine.solving.fraction_free import TooManyTerms, cramer, determinant  # noqa: F401 - determinant is imported from here too
+from nodeterm.engine.symbols import I, V, param, s
 
 try:  # a dependency, but keep the SymPy path working without it
     import flint
@@ -78,10 +78,10 @@ KNOWN_FACTOR_TERMS = 64
 def large_terms() -> int:
     """Results with more terms (numerator plus denominator) stay polynomials until asked for.
 
-    The same limit as the canonical form's: above :data:`nodeterm.engine.solve.FACTOR_LIMIT`
+    The same limit as the canonical form's: above :data:`nodeterm.engine.solving.solve.FACTOR_LIMIT`
     terms a result is printed expanded and collected in s, which the polynomials do directly.
     """
-    from .solve import FACTOR_LIMIT
+    from nodeterm.engine.solving.solve import FACTOR_LIMIT
     return FACTOR_LIMIT
 
 
@@ -333,7 +333,7 @@ class PolyField:
 
     def expr(self, a: tuple) -> sympy.Expr:
         """The canonical SymPy form of a reduced fraction (what ``canonical`` would give)."""
-        from .solve import FACTOR_LIMIT, canonical, tidy_fraction
+        from nodeterm.engine.solving.solve import FACTOR_LIMIT, canonical, tidy_fraction
         if not self.atoms and len(a[0]) + len(a[1]) > FACTOR_LIMIT:  # no factoring: collect in s
             num, den = self.collected_expr(a[0]), self.collected_expr(a[1])
             return num / den if den != 1 else num
@@ -586,7 +586,7 @@ def solve_fractions(field: PolyField, A: sympy.Matrix, b: sympy.Matrix):
 
 
 def solve_linear_fast(A: sympy.Matrix, b: sympy.Matrix) -> list | None:
-    """:func:`nodeterm.engine.solve.solve_linear` on FLINT polynomials (same answers).
+    """:func:`nodeterm.engine.solving.solve.solve_linear` on FLINT polynomials (same answers).
 
     >>> x, y = sympy.symbols("x y")
     >>> solve_linear_fast(sympy.Matrix([[x, 1], [1, -1]]), sympy.Matrix([1, 0]))
@@ -637,15 +637,15 @@ def too_large(system, syms, terms: int, what: str) -> SolveError:
 def solve_system_fast(system):
     """Solve a System and derive every quantity on FLINT polynomials.
 
-    Mirrors :func:`nodeterm.engine.solve.solve_system` step for step (same results), but
+    Mirrors :func:`nodeterm.engine.solving.solve.solve_system` step for step (same results), but
     keeps every quantity as a fraction over the shared determinant until one final GCD.
 
     Raises:
         Unsupported: when something is outside the polynomial path (the caller falls back).
         SolveError: when the equations are singular.
     """
-    from .solve import Solution, diagnose_singular, peel_order
-    from .system import _Context
+    from nodeterm.engine.solving.solve import Solution, diagnose_singular, peel_order
+    from nodeterm.engine.equations.system import _Context
 
     circuit = system.circuit
     m = system.matrix()

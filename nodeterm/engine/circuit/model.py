@@ -10,9 +10,9 @@ from dataclasses import dataclass, field
 
 import sympy
 
-from .errors import Warning
-from .parts import Part
-from .symbols import param
+from nodeterm.engine.errors import Warning
+from nodeterm.engine.circuit.parts import Part
+from nodeterm.engine.symbols import param
 
 
 @dataclass(frozen=True)

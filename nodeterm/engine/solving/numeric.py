@@ -28,12 +28,12 @@ from dataclasses import dataclass, field
 import numpy as np
 import sympy
 
-from .symbols import as_expr
-from .errors import InputError
-from .parts import CurrentSource, VoltageSource, _Passive
-from .symbols import I, V, param, s
+from nodeterm.engine.symbols import as_expr
+from nodeterm.engine.errors import InputError
+from nodeterm.engine.circuit.parts import CurrentSource, VoltageSource, _Passive
+from nodeterm.engine.symbols import I, V, param, s
 
-from .size_limits import EXACT_NODE_LIMIT, check_exact_size  # noqa: F401 - part of this module's API
+from nodeterm.engine.circuit.size_limits import EXACT_NODE_LIMIT, check_exact_size  # noqa: F401 - part of this module's API
 
 
 @dataclass
@@ -71,7 +71,7 @@ class NumericModel:
         circuit: the circuit.
         values: parameter name -> value (number or SymPy expression); defaults to the file's values.
 
-    >>> from nodeterm.engine.loader import parse_circuit
+    >>> from nodeterm.engine.circuit.loader import parse_circuit
     >>> c = parse_circuit('''
     ... [parts]
     ... V1 = { kind = "vsource", nodes = ["a", "gnd"], value = "10" }
@@ -353,7 +353,7 @@ def parse_values(circuit, sets: dict) -> dict:
     Raises:
         InputError: for an unknown name or a bad value.
     """
-    from .expr import ExpressionError, parse_expression
+    from nodeterm.engine.circuit.expr import ExpressionError, parse_expression
     params = circuit.parameters
     out = {}
     for name, raw in sets.items():

@@ -30,8 +30,8 @@ difference and a likely cause (sign, factor, swapped or mixed-up parameters;
 Written here because no library compares a hand derivation with a system of
 equations and explains the difference in terms of circuit parts.
 
->>> from nodeterm.engine.loader import parse_circuit
->>> from nodeterm.engine.system import build_system
+>>> from nodeterm.engine.circuit.loader import parse_circuit
+>>> from nodeterm.engine.equations.system import build_system
 >>> c = parse_circuit('''
 ... [parameters]
 ... Vin = ""
@@ -63,14 +63,14 @@ from dataclasses import dataclass, field
 
 import sympy
 
-from .symbols import as_expr
-from .claim_forms import _ONE, _linear, _r, _t, _zero
-from .closest_equation import HELPER_KINDS, PRIMARY_KINDS, _closest
-from .expr import ExpressionError, parse_expression
-from .loader import quantity_resolver
-from .result_causes import _NUMERIC_POINTS, _example, _is_zero, _result_cause
-from .solve import solve_linear
-from .symbols import I, V, param
+from nodeterm.engine.symbols import as_expr
+from nodeterm.engine.audit.claim_forms import _ONE, _linear, _r, _t, _zero
+from nodeterm.engine.audit.closest_equation import HELPER_KINDS, PRIMARY_KINDS, _closest
+from nodeterm.engine.circuit.expr import ExpressionError, parse_expression
+from nodeterm.engine.circuit.loader import quantity_resolver
+from nodeterm.engine.audit.result_causes import _NUMERIC_POINTS, _example, _is_zero, _result_cause
+from nodeterm.engine.solving.solve import solve_linear
+from nodeterm.engine.symbols import I, V, param
 
 HOLDS, FAILS, ERROR = "holds", "fails", "error"
 
@@ -125,7 +125,7 @@ class Auditor:
     """
 
     def __init__(self, system, solution=None) -> None:
-        from .system import _Context  # the context the equations were written with
+        from nodeterm.engine.equations.system import _Context  # the context the equations were written with
         self.system = system
         c = self.circuit = system.circuit
         self.solution = solution if solution is not None else system.solve()

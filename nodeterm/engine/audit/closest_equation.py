@@ -19,8 +19,8 @@ from __future__ import annotations
 
 import sympy
 
-from .claim_forms import _ONE, _add_forms, _attribute, _linear, _t, _zero
-from .result_causes import _swap_hint
+from nodeterm.engine.audit.claim_forms import _ONE, _add_forms, _attribute, _linear, _t, _zero
+from nodeterm.engine.audit.result_causes import _swap_hint
 
 # Roles of the generated equations: a claim matches a primary equation, possibly
 # after the helpers (known voltages, op-amp input equalities) are substituted.

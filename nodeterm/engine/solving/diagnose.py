@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import sympy
 
-from .errors import SolveError
+from nodeterm.engine.errors import SolveError
 
 CURRENT_KINDS = ("isource", "vccs", "cccs")
 

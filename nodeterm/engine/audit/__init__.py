@@ -1,0 +1,1 @@
+"""Audit of the engineer's own equations and results ([hand] claims)."""

@@ -1,0 +1,1 @@
+"""The circuit and its file: expression language, model, part kinds, TOML loader, size limits."""
