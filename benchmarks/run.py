@@ -49,7 +49,7 @@ def ladder(n: int) -> str:
     """RC low-pass ladder of n sections, fully symbolic."""
     lines = [f'title = "RC ladder, {n} sections"', "[parameters]", 'Vin = ""']
     lines += [f'R{k} = ""\nC{k} = ""' for k in range(1, n + 1)]
-    lines += ["[parts]", 'VS = { kind = "vsource", nodes = ["n0", "gnd"], value = "Vin" }']
+    lines += ["[parts]", 'VS = { kind = "voltage_source", nodes = ["n0", "gnd"], value = "Vin" }']
     for k in range(1, n + 1):
         lines.append(f'RS{k} = {{ kind = "resistor", nodes = ["n{k - 1}", "n{k}"], value = "R{k}" }}')
         lines.append(f'CS{k} = {{ kind = "capacitor", nodes = ["n{k}", "gnd"], value = "C{k}" }}')
@@ -69,7 +69,7 @@ R6 = ""
 C1 = ""
 C2 = ""
 [parts]
-VS = { kind = "vsource", nodes = ["in", "gnd"], value = "Vin" }
+VS = { kind = "voltage_source", nodes = ["in", "gnd"], value = "Vin" }
 RIN = { kind = "resistor", nodes = ["in", "sm"], value = "R1" }
 RFB = { kind = "resistor", nodes = ["sm", "hp"], value = "R2" }
 RLP = { kind = "resistor", nodes = ["lp", "sm"], value = "R3" }
@@ -103,8 +103,8 @@ Rc = ""
 Rd = ""
 RL = ""
 [parts]
-VA = { kind = "vsource", nodes = ["a", "gnd"], value = "V1" }
-VB = { kind = "vsource", nodes = ["b", "gnd"], value = "V2" }
+VA = { kind = "voltage_source", nodes = ["a", "gnd"], value = "V1" }
+VB = { kind = "voltage_source", nodes = ["b", "gnd"], value = "V2" }
 RSA = { kind = "resistor", nodes = ["a", "pa"], value = "Rs1" }
 RSB = { kind = "resistor", nodes = ["b", "pb"], value = "Rs2" }
 U1 = { kind = "opamp", plus = "pa", minus = "g1", out = "o1" }
@@ -125,7 +125,7 @@ gain = "V_out/(V2 - V1)"
 
 def mesh(rows: int, cols: int) -> str:
     """A resistor mesh fed at one corner, loaded at the other; values from a short repeating list."""
-    lines = ['title = "resistor mesh"', "[parts]", 'VS = { kind = "vsource", nodes = ["m0_0", "gnd"], value = "5" }']
+    lines = ['title = "resistor mesh"', "[parts]", 'VS = { kind = "voltage_source", nodes = ["m0_0", "gnd"], value = "5" }']
     k = 0
     for i in range(rows):
         for j in range(cols):
@@ -144,7 +144,7 @@ def mesh(rows: int, cols: int) -> str:
 def monte_carlo_circuit(n: int = 20) -> str:
     """A 20-node R-2R ladder into an inverting op-amp stage, each resistor its own 1 % parameter."""
     lines = ['title = "R-2R ladder and inverting stage"', "[parameters]", "Vref = 2.5"]
-    parts = ['VR = { kind = "vsource", nodes = ["t0", "gnd"], value = "Vref" }']
+    parts = ['VR = { kind = "voltage_source", nodes = ["t0", "gnd"], value = "Vref" }']
     for k in range(n - 3):
         lines.append(f'Ra{k} = {{ value = "10k", tolerance = "1%" }}')
         lines.append(f'Rb{k} = {{ value = "20k", tolerance = "1%" }}')

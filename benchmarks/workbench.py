@@ -54,7 +54,7 @@ def signal_chain(stages: int = 16, own_symbols: bool = False) -> str:
     """
     lines = ['title = "Sensor signal chain, RC and gain stages"', 'reference = "gnd"',
              "[parameters]", 'Vin = ""']
-    parts = ['VS = { kind = "vsource", nodes = ["in", "gnd"], value = "Vin" }']
+    parts = ['VS = { kind = "voltage_source", nodes = ["in", "gnd"], value = "Vin" }']
     if not own_symbols:
         lines += ['R = "10k"', 'C = "10n"', 'Rf = "22k"', 'Rg = "10k"']
     prev = "in"

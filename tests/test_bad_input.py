@@ -31,7 +31,7 @@ title = "greenhouse sensor divider"
 Rtop = "10k"
 Rbot = "4.7k"
 [parts]
-V1 = { kind = "vsource", nodes = ["in", "gnd"], value = "5" }
+V1 = { kind = "voltage_source", nodes = ["in", "gnd"], value = "5" }
 R1 = { kind = "resistor", nodes = ["in", "out"], value = "Rtop" }
 R2 = { kind = "resistor", nodes = ["out", "gnd"], value = "Rbot" }
 """
@@ -81,6 +81,15 @@ def test_unknown_kind(tmp_path, capsys):
     text = DIVIDER + 'L9 = { kind = "lamp", nodes = ["out", "gnd"], value = "1" }\n'
     message = refused(tmp_path, text, capsys, "part L9: unknown kind 'lamp'", line=9)
     assert "resistor" in message  # the hint lists the kinds
+
+
+@pytest.mark.parametrize("word, meant", [("vsource", "voltage_source"), ("isource", "current_source"),
+                                         ("VoltageSource", "voltage_source"), ("current source", "current_source")])
+def test_source_kinds_are_full_words(tmp_path, capsys, word, meant):
+    """Sources are written in the trade's full words; a short or spaced spelling is refused with the word meant."""
+    text = DIVIDER + f'S9 = {{ kind = "{word}", nodes = ["out", "gnd"], value = "1" }}\n'
+    message = refused(tmp_path, text, capsys, f"part S9: unknown kind {word!r}", line=9, column=16)
+    assert f"did you mean {meant!r}?" in message
 
 
 def test_missing_key(tmp_path, capsys):
@@ -174,15 +183,15 @@ def test_node_with_no_dc_path_only_capacitors_is_warned_and_solves(tmp_path, cap
 
 
 def test_loop_of_voltage_sources(tmp_path, capsys):
-    text = DIVIDER + ('V2 = { kind = "vsource", nodes = ["in", "mid"], value = "2" }\n'
-                      'V3 = { kind = "vsource", nodes = ["mid", "gnd"], value = "3" }\n')
+    text = DIVIDER + ('V2 = { kind = "voltage_source", nodes = ["in", "mid"], value = "2" }\n'
+                      'V3 = { kind = "voltage_source", nodes = ["mid", "gnd"], value = "3" }\n')
     message = refused(tmp_path, text, capsys, "voltage sources form a loop")
     assert all(v in message for v in ("V1", "V2", "V3"))
 
 
 def test_node_fed_only_by_current_sources(tmp_path, capsys):
-    text = DIVIDER + ('I1 = { kind = "isource", nodes = ["out", "x"], value = "1m" }\n'
-                      'I2 = { kind = "isource", nodes = ["x", "gnd"], value = "1m" }\n')
+    text = DIVIDER + ('I1 = { kind = "current_source", nodes = ["out", "x"], value = "1m" }\n'
+                      'I2 = { kind = "current_source", nodes = ["x", "gnd"], value = "1m" }\n')
     message = refused(tmp_path, text, capsys, "fed only by current sources")
     assert "'x'" in message
     with pytest.raises(SolveError):
@@ -251,7 +260,7 @@ def test_value_that_expands_to_thousands_of_terms_is_refused(tmp_path, capsys):
     from nodeterm.cli import main
     f = tmp_path / "blowup.toml"
     f.write_text('[parameters]\na = ""\nb = ""\nc = ""\n[parts]\n'
-                 'V1 = { kind = "vsource", nodes = ["in", "gnd"], value = "(a+b+c)^64" }\n'
+                 'V1 = { kind = "voltage_source", nodes = ["in", "gnd"], value = "(a+b+c)^64" }\n'
                  'R1 = { kind = "resistor", nodes = ["in", "gnd"], value = "a" }\n')
     assert main(["solve", str(f)]) == 2
     err = capsys.readouterr().err
@@ -262,7 +271,7 @@ def test_time_limit_stops_long_work_with_a_message(tmp_path, capsys):
     import time
     from nodeterm import cli
     f = tmp_path / "ok.toml"
-    f.write_text('[parts]\nV1 = { kind = "vsource", nodes = ["in", "gnd"], value = 1 }\n'
+    f.write_text('[parts]\nV1 = { kind = "voltage_source", nodes = ["in", "gnd"], value = 1 }\n'
                  'R1 = { kind = "resistor", nodes = ["in", "gnd"], value = 1 }\n')
 
     def slow(args):
@@ -289,7 +298,7 @@ def test_near_misses_get_a_did_you_mean(tmp_path, capsys):
     for i, (line, expected) in enumerate(cases.items()):
         f = tmp_path / f"near{i}.toml"
         f.write_text('[parameters]\nRin = "10k"\n[parts]\n'
-                     'V1 = { kind = "vsource", nodes = ["a", "gnd"], value = 1 }\n' + line + "\n")
+                     'V1 = { kind = "voltage_source", nodes = ["a", "gnd"], value = 1 }\n' + line + "\n")
         assert main(["solve", str(f)]) == 2
         err = capsys.readouterr().err
         assert f"{f}:5" in err and expected in err

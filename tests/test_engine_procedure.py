@@ -21,8 +21,8 @@ def system_of(parts: str, extra: str = ""):
 
 def test_chain_of_sources_gives_known_voltages():
     sys_ = system_of('''
-V1 = { kind = "vsource", nodes = ["a", "gnd"], value = 5 }
-V2 = { kind = "vsource", nodes = ["b", "a"], value = 3 }
+V1 = { kind = "voltage_source", nodes = ["a", "gnd"], value = 5 }
+V2 = { kind = "voltage_source", nodes = ["b", "a"], value = 3 }
 R1 = { kind = "resistor", nodes = ["b", "gnd"], value = 1 }
 ''')
     known = [e for e in sys_.equations if e.kind == "known_voltage"]
@@ -35,8 +35,8 @@ R1 = { kind = "resistor", nodes = ["b", "gnd"], value = 1 }
 
 def test_floating_source_makes_one_supernode_kcl():
     sys_ = system_of('''
-I1 = { kind = "isource", nodes = ["gnd", "a"], value = 2 }
-V1 = { kind = "vsource", nodes = ["a", "b"], value = 4 }
+I1 = { kind = "current_source", nodes = ["gnd", "a"], value = 2 }
+V1 = { kind = "voltage_source", nodes = ["a", "b"], value = 4 }
 R1 = { kind = "resistor", nodes = ["a", "gnd"], value = 2 }
 R2 = { kind = "resistor", nodes = ["b", "gnd"], value = 4 }
 ''')
@@ -52,7 +52,7 @@ R2 = { kind = "resistor", nodes = ["b", "gnd"], value = 4 }
 
 def test_opamp_output_kcl_is_skipped_and_its_current_comes_from_it():
     sys_ = system_of('''
-V1 = { kind = "vsource", nodes = ["in", "gnd"], value = "Vi" }
+V1 = { kind = "voltage_source", nodes = ["in", "gnd"], value = "Vi" }
 R1 = { kind = "resistor", nodes = ["in", "inv"], value = "Ri" }
 R2 = { kind = "resistor", nodes = ["inv", "out"], value = "Rf" }
 RL = { kind = "resistor", nodes = ["out", "gnd"], value = "RL" }
@@ -71,9 +71,9 @@ U1 = { kind = "opamp", plus = "gnd", minus = "inv", out = "out" }
 
 def test_current_controlled_source_sensing_a_source_adds_that_current():
     sys_ = system_of('''
-V1 = { kind = "vsource", nodes = ["a", "gnd"], value = 10 }
+V1 = { kind = "voltage_source", nodes = ["a", "gnd"], value = 10 }
 R1 = { kind = "resistor", nodes = ["a", "b"], value = 5 }
-Vm = { kind = "vsource", nodes = ["b", "c"], value = 0 }
+Vm = { kind = "voltage_source", nodes = ["b", "c"], value = 0 }
 R2 = { kind = "resistor", nodes = ["c", "gnd"], value = 5 }
 F1 = { kind = "cccs", nodes = ["gnd", "c"], control = "Vm", gain = 1 }
 ''')
@@ -89,7 +89,7 @@ F1 = { kind = "cccs", nodes = ["gnd", "c"], control = "Vm", gain = 1 }
 
 def test_reactive_result_is_one_fraction_collected_in_s():
     sys_ = system_of('''
-V1 = { kind = "vsource", nodes = ["in", "gnd"], value = 1 }
+V1 = { kind = "voltage_source", nodes = ["in", "gnd"], value = 1 }
 R1 = { kind = "resistor", nodes = ["in", "out"], value = "R" }
 C1 = { kind = "capacitor", nodes = ["out", "gnd"], value = "C" }
 ''', '[parameters]\nR = ""\nC = ""')
@@ -101,7 +101,7 @@ C1 = { kind = "capacitor", nodes = ["out", "gnd"], value = "C" }
 
 def test_substitution_is_recorded_and_undoable():
     base = system_of('''
-V1 = { kind = "vsource", nodes = ["in", "gnd"], value = "Vin" }
+V1 = { kind = "voltage_source", nodes = ["in", "gnd"], value = "Vin" }
 R1 = { kind = "resistor", nodes = ["in", "out"], value = "R1" }
 R2 = { kind = "resistor", nodes = ["out", "gnd"], value = "R2" }
 ''', '[parameters]\nVin = "12"\nR1 = "10k"\nR2 = "R1"')
@@ -116,7 +116,7 @@ R2 = { kind = "resistor", nodes = ["out", "gnd"], value = "R2" }
 
 def test_matrix_is_labelled():
     sys_ = system_of('''
-V1 = { kind = "vsource", nodes = ["in", "gnd"], value = 1 }
+V1 = { kind = "voltage_source", nodes = ["in", "gnd"], value = 1 }
 R1 = { kind = "resistor", nodes = ["in", "out"], value = 1 }
 R2 = { kind = "resistor", nodes = ["out", "gnd"], value = 1 }
 ''')

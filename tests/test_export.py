@@ -40,7 +40,7 @@ Vin = "1"
 R1 = "4.7kΩ"
 R2 = "10k"
 [parts]
-Vs = { kind = "vsource", nodes = ["in", "gnd"], value = "Vin" }
+Vs = { kind = "voltage_source", nodes = ["in", "gnd"], value = "Vin" }
 Ra = { kind = "resistor", nodes = ["in", "inv"], value = "R1" }
 Rb = { kind = "resistor", nodes = ["inv", "out"], value = "R2" }
 U1 = { kind = "opamp", plus = "gnd", minus = "inv", out = "out" }

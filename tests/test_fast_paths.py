@@ -39,7 +39,7 @@ def slow_solve(system):
 
 def ladder(n: int) -> str:
     lines = ["[parameters]", 'Vin = ""'] + [f'R{k} = ""\nC{k} = ""' for k in range(1, n + 1)]
-    lines += ["[parts]", 'VS = { kind = "vsource", nodes = ["n0", "gnd"], value = "Vin" }']
+    lines += ["[parts]", 'VS = { kind = "voltage_source", nodes = ["n0", "gnd"], value = "Vin" }']
     for k in range(1, n + 1):
         lines.append(f'RS{k} = {{ kind = "resistor", nodes = ["n{k - 1}", "n{k}"], value = "R{k}" }}')
         lines.append(f'CS{k} = {{ kind = "capacitor", nodes = ["n{k}", "gnd"], value = "C{k}" }}')
@@ -78,7 +78,7 @@ Vin = ""
 Rg = ""
 Rf = ""
 [parts]
-VS = { kind = "vsource", nodes = ["in", "gnd"], value = "Vin" }
+VS = { kind = "voltage_source", nodes = ["in", "gnd"], value = "Vin" }
 RG = { kind = "resistor", nodes = ["m", "gnd"], value = "Rg" }
 RF = { kind = "resistor", nodes = ["m", "out"], value = "Rf" }
 U1 = { kind = "opamp", plus = "in", minus = "m", out = "out", gain = "100k", gbw = "1M", rin = "1M", rout = "50" }
@@ -92,7 +92,7 @@ R2 = ""
 k = ""
 beta = ""
 [parts]
-VS = { kind = "vsource", nodes = ["a", "gnd"], value = "Vs" }
+VS = { kind = "voltage_source", nodes = ["a", "gnd"], value = "Vs" }
 R1 = { kind = "resistor", nodes = ["a", "b"], value = "R1" }
 R2 = { kind = "resistor", nodes = ["b", "gnd"], value = "R2" }
 E1 = { kind = "vcvs", nodes = ["c", "gnd"], control = ["b", "gnd"], gain = "k" }
@@ -110,8 +110,8 @@ R1 = ""
 R2 = ""
 L1 = ""
 [parts]
-VA = { kind = "vsource", nodes = ["a", "gnd"], value = "Va" }
-VX = { kind = "vsource", nodes = ["b", "c"], value = "Vx" }
+VA = { kind = "voltage_source", nodes = ["a", "gnd"], value = "Va" }
+VX = { kind = "voltage_source", nodes = ["b", "c"], value = "Vx" }
 R1 = { kind = "resistor", nodes = ["a", "b"], value = "R1" }
 L1 = { kind = "inductor", nodes = ["c", "gnd"], value = "L1" }
 R2 = { kind = "resistor", nodes = ["b", "gnd"], value = "R2" }
@@ -185,7 +185,7 @@ def test_numeric_path_matches_exact_solution():
 
 
 def test_numeric_mesh_matches_dense_numpy_solve():
-    lines = ["[parts]", 'VS = { kind = "vsource", nodes = ["m0_0", "gnd"], value = "3" }']
+    lines = ["[parts]", 'VS = { kind = "voltage_source", nodes = ["m0_0", "gnd"], value = "3" }']
     k = 0
     for i in range(6):
         for j in range(6):
@@ -218,7 +218,7 @@ Ra = { value = "10k", tolerance = "5%" }
 Rb = { value = "4.7k", tolerance = "5%" }
 Rf = { value = "100k", tolerance = "5%" }
 [parts]
-VS = { kind = "vsource", nodes = ["in", "gnd"], value = "Vin" }
+VS = { kind = "voltage_source", nodes = ["in", "gnd"], value = "Vin" }
 RA = { kind = "resistor", nodes = ["in", "m"], value = "Ra" }
 RB = { kind = "resistor", nodes = ["m", "gnd"], value = "Rb" }
 RF = { kind = "resistor", nodes = ["m", "out"], value = "Rf" }

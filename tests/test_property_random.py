@@ -139,11 +139,11 @@ def circuits(draw) -> Drawn:
             continue
         parent[root(a)] = root(b)
         text, value = source_value(VOLTAGES)
-        c.parts.append(Part("vsource", new_id("V"), (a, b), text, value))
+        c.parts.append(Part("voltage_source", new_id("V"), (a, b), text, value))
     for _ in range(draw(st.integers(0, 2))):
         a, b = draw(st.lists(st.sampled_from(everyone), min_size=2, max_size=2, unique=True))
         text, value = source_value(CURRENTS)
-        c.parts.append(Part("isource", new_id("I"), (a, b), text, value))
+        c.parts.append(Part("current_source", new_id("I"), (a, b), text, value))
 
     # Op-amp stages with negative feedback (Rf from the output to the inverting input).
     inputs = list(net)
@@ -172,7 +172,7 @@ def mna(c: Drawn, exact: bool):
     """Our own MNA stamps; returns (A, b, node index, current-unknown index)."""
     nodes = c.nodes()
     idx = {n: i for i, n in enumerate(nodes)}
-    branch = [p for p in c.parts if p.kind in ("vsource", "opamp")]
+    branch = [p for p in c.parts if p.kind in ("voltage_source", "opamp")]
     bidx = {p.id: len(nodes) + j for j, p in enumerate(branch)}
     size = len(nodes) + len(branch)
     zero = Fraction(0) if exact else 0.0
@@ -190,13 +190,13 @@ def mna(c: Drawn, exact: bool):
                 for n2, sign2 in ((a_, 1), (b_, -1)):
                     if n2 in idx:
                         A[idx[n1]][idx[n2]] += sign1 * sign2 * g
-        elif p.kind == "isource":  # value flows a -> b through the source: leaves a, enters b
+        elif p.kind == "current_source":  # value flows a -> b through the source: leaves a, enters b
             a_, b_ = p.nodes
             if a_ in idx:
                 b[idx[a_]] -= conv(p.value)
             if b_ in idx:
                 b[idx[b_]] += conv(p.value)
-        elif p.kind == "vsource":  # I flows p -> n through the source: leaves p, enters n
+        elif p.kind == "voltage_source":  # I flows p -> n through the source: leaves p, enters n
             pn, nn = p.nodes
             j = bidx[p.id]
             if pn in idx:
@@ -236,7 +236,7 @@ def source_groups(c: Drawn) -> dict[str, set[str]]:
     groups = {n: {n} for n in c.nodes() + [c.reference]}
     owner = {n: n for n in groups}
     for p in c.parts:
-        if p.kind != "vsource":
+        if p.kind != "voltage_source":
             continue
         a, b = (owner[n] for n in p.nodes)
         if b == c.reference:
@@ -263,7 +263,7 @@ def _positive_feedback_at_unity() -> Drawn:
         reference="gnd",
         parts=[
             Part("resistor", "R1", ("n1", "gnd"), "1k", k),
-            Part("isource", "I1", ("gnd", "n1"), "1m", Fraction(1, 1000)),
+            Part("current_source", "I1", ("gnd", "n1"), "1m", Fraction(1, 1000)),
             Part("resistor", "R2", ("m1", "gnd"), "1k", k),
             Part("opamp", "U1", ("n1", "m1", "o1")),
             Part("resistor", "R3", ("m1", "o1"), "1k", k),
@@ -340,9 +340,9 @@ def test_engine_agrees_with_numpy_mna(c: Drawn):
         exact = sympy.Rational(p.value.numerator, p.value.denominator)
         if p.kind == "resistor":
             assert current == (v[a] - v[b]) / exact, f"I_{p.id}: {current} vs Ohm's law\n{text}"
-        elif p.kind == "isource":
+        elif p.kind == "current_source":
             assert current == exact, f"I_{p.id}: {current}, source value {exact}\n{text}"
-        elif p.kind == "vsource":
+        elif p.kind == "voltage_source":
             assert v[a] - v[b] == exact, f"V across {p.id}: {v[a] - v[b]}, source value {exact}\n{text}"
     for node, total in leaving.items():
         assert total == 0, f"KCL at {node}: currents leaving sum to {total}\n{text}"

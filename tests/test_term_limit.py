@@ -27,7 +27,7 @@ def op_amp_chain(stages: int, values: bool = False) -> str:
     product of one two-term factor per stage, so it has 2**stages terms. ``values`` gives every
     part a value in the file (invented, for the numeric response) and asks for the chain's gain."""
     lines = ["[parameters]", 'Vin = ""']
-    parts = ['VS = { kind = "vsource", nodes = ["in", "gnd"], value = "Vin" }']
+    parts = ['VS = { kind = "voltage_source", nodes = ["in", "gnd"], value = "Vin" }']
     prev = "in"
     for k in range(1, stages + 1):
         given = (f"{k}k", "10n", "22k", "10k") if values else ("", "", "", "")

@@ -7,7 +7,7 @@ from __future__ import annotations
 
 from nodeterm.present.format import expr_text
 
-SOURCE_KINDS = ("vsource", "isource", "vcvs", "vccs", "ccvs", "cccs")
+SOURCE_KINDS = ("voltage_source", "current_source", "vcvs", "vccs", "ccvs", "cccs")
 
 
 def part_nodes(part) -> str:

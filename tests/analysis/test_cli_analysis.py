@@ -23,7 +23,7 @@ DEMOS = HERE.parent.parent / "circuits"
 
 OPAMP_FILE = '''title = "bad op-amp values"
 [parts]
-VS = {{ kind = "vsource", nodes = ["in", "gnd"], value = 1 }}
+VS = {{ kind = "voltage_source", nodes = ["in", "gnd"], value = 1 }}
 RG = {{ kind = "resistor", nodes = ["fb", "gnd"], value = "1k" }}
 RF = {{ kind = "resistor", nodes = ["fb", "out"], value = "9k" }}
 U1 = {{ kind = "opamp", plus = "in", minus = "fb", out = "out", {keys} }}
@@ -33,7 +33,7 @@ TOL_FILE = '''title = "bad tolerance"
 [parameters]
 R1 = {{ value = "10k", tolerance = "{tol}" }}
 [parts]
-VS = {{ kind = "vsource", nodes = ["in", "gnd"], value = 1 }}
+VS = {{ kind = "voltage_source", nodes = ["in", "gnd"], value = 1 }}
 RA = {{ kind = "resistor", nodes = ["in", "gnd"], value = "R1" }}
 '''
 

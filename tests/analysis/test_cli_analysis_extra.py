@@ -11,7 +11,7 @@ TWO_RC = '''title = "two RC sections"
 R = "1k"
 C = "1u"
 [parts]
-V1 = { kind = "vsource", nodes = ["in", "gnd"], value = 1 }
+V1 = { kind = "voltage_source", nodes = ["in", "gnd"], value = 1 }
 R1 = { kind = "resistor", nodes = ["in", "a"], value = "R" }
 C1 = { kind = "capacitor", nodes = ["a", "gnd"], value = "C" }
 R2 = { kind = "resistor", nodes = ["in", "b"], value = "100*R" }

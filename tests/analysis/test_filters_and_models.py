@@ -180,7 +180,7 @@ def test_gbw_alone_is_an_integrating_open_loop_gain():
 [parameters]
 GBW = ""
 [parts]
-V1 = { kind = "vsource", nodes = ["in", "gnd"], value = 1 }
+V1 = { kind = "voltage_source", nodes = ["in", "gnd"], value = 1 }
 U1 = { kind = "opamp", plus = "in", minus = "out", out = "out", gbw = "GBW" }
 R1 = { kind = "resistor", nodes = ["out", "gnd"], value = "1k" }
 [find]

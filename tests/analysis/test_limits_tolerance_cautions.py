@@ -48,7 +48,7 @@ def test_output_current_limit():
     # U1 drives the 10k feedback chain plus a 100 ohm load: 10 V/100 ohm = 100 mA > 20 mA.
     c = parse_circuit('''
 [parts]
-VS = { kind = "vsource", nodes = ["in", "gnd"], value = 1 }
+VS = { kind = "voltage_source", nodes = ["in", "gnd"], value = 1 }
 RG = { kind = "resistor", nodes = ["fb", "gnd"], value = "1k" }
 RF = { kind = "resistor", nodes = ["fb", "out"], value = "9k" }
 RL = { kind = "resistor", nodes = ["out", "gnd"], value = "100" }
@@ -142,7 +142,7 @@ def test_mains_source_gives_a_caution_in_the_system_warnings():
 [parameters]
 Vmains = "325"
 [parts]
-VM = { kind = "vsource", nodes = ["line", "gnd"], value = "Vmains" }
+VM = { kind = "voltage_source", nodes = ["line", "gnd"], value = "Vmains" }
 R1 = { kind = "resistor", nodes = ["line", "sense"], value = "1M" }
 R2 = { kind = "resistor", nodes = ["sense", "gnd"], value = "1k" }
 ''')

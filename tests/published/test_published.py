@@ -39,7 +39,7 @@ from nodeterm.engine.symbols import param, s
 HERE = Path(__file__).parent
 CASES = sorted(p.name for p in HERE.glob("*.toml"))
 
-TWO_TERMINAL = {"resistor", "capacitor", "inductor", "vsource", "isource", "vcvs", "vccs", "ccvs", "cccs"}
+TWO_TERMINAL = {"resistor", "capacitor", "inductor", "voltage_source", "current_source", "vcvs", "vccs", "ccvs", "cccs"}
 
 
 # ----------------------------------------------------------------------------- helpers
@@ -521,7 +521,7 @@ def test_equation_count_matches_unknowns(name):
         if eq.kind == "kcl":
             assert eq.at not in skipped_nodes
     grounded = [
-        p for p in circuit.parts if p.kind == "vsource" and circuit.reference in p.nodes
+        p for p in circuit.parts if p.kind == "voltage_source" and circuit.reference in p.nodes
     ]
     assert kinds(system).count("known_voltage") == len(grounded)
 

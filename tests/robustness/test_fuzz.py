@@ -93,7 +93,7 @@ def test_known_expressions_still_parse():
 
 
 # ----------------------------------------------------------------------------- circuit files
-KINDS = ["resistor", "capacitor", "inductor", "vsource", "isource", "vcvs", "vccs", "ccvs", "cccs", "opamp",
+KINDS = ["resistor", "capacitor", "inductor", "voltage_source", "current_source", "vcvs", "vccs", "ccvs", "cccs", "opamp",
          "lamp", ""]
 NODES = ["gnd", "a", "b", "out", "0", "a-b", ""]
 KEYS = ["nodes", "value", "gain", "control", "plus", "minus", "out", "rails", "gbw", "kind", "colour"]
@@ -165,14 +165,14 @@ def test_toml_shaped_circuits_load_or_are_refused(text):
 
 @settings(max_examples=100 * SCALE, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(st.sampled_from(['R1 = { kind = "resistor", nodes = ["a", "gnd"], value = "1k" }',
-                        'V1 = { kind = "vsource", nodes = ["a", "gnd"], value = 5 }']),
+                        'V1 = { kind = "voltage_source", nodes = ["a", "gnd"], value = 5 }']),
        st.text(alphabet=ALPHABET + "#", max_size=60))
 def test_a_valid_line_with_a_random_tail_loads_or_is_refused(line, tail):
     load_or_refuse("[parts]\n" + line + tail + "\n" + 'R9 = { kind = "resistor", nodes = ["a", "gnd"], value = "2k" }\n')
 
 
 REQUIRED = {"resistor": ("nodes", "value"), "capacitor": ("nodes", "value"), "inductor": ("nodes", "value"),
-            "vsource": ("nodes", "value"), "isource": ("nodes", "value"), "vcvs": ("nodes", "control", "gain"),
+            "voltage_source": ("nodes", "value"), "current_source": ("nodes", "value"), "vcvs": ("nodes", "control", "gain"),
             "vccs": ("nodes", "control", "gain"), "ccvs": ("nodes", "control", "gain"),
             "cccs": ("nodes", "control", "gain"), "opamp": ("plus", "minus", "out")}
 GOOD_NODES = ["gnd", "a", "b", "c", "out"]

@@ -59,7 +59,7 @@ TRANSRESISTANCES = [("1k", Fraction(1000)), ("-470", Fraction(-470)), ("2.2k", F
 # s0 = sigma + j*omega (rad/s): real, imaginary (a sine at omega) and complex frequencies.
 FREQUENCIES = [(Fraction(1000), Fraction(0)), (Fraction(0), Fraction(2000)), (Fraction(1, 3), Fraction(0)),
                (Fraction(-150), Fraction(7000)), (Fraction(0), Fraction(314159, 100)), (Fraction(25000), Fraction(0))]
-VOLTAGE_DEFINING = ("vsource", "vcvs", "ccvs")
+VOLTAGE_DEFINING = ("voltage_source", "vcvs", "ccvs")
 
 
 @dataclass
@@ -140,7 +140,7 @@ def circuits(draw) -> Drawn:
         return n
 
     def sensed() -> str:  # a part whose current a CCCS/CCVS may sense
-        return draw(st.sampled_from([p.id for p in c.parts if p.kind in ("resistor", "capacitor", "vsource")]))
+        return draw(st.sampled_from([p.id for p in c.parts if p.kind in ("resistor", "capacitor", "voltage_source")]))
 
     for _ in range(draw(st.integers(0, 3))):
         kind = draw(st.sampled_from(VOLTAGE_DEFINING))
@@ -154,9 +154,9 @@ def circuits(draw) -> Drawn:
         if root(a) == root(b):
             continue
         parent[root(a)] = root(b)
-        if kind == "vsource":
+        if kind == "voltage_source":
             text, value = draw(st.sampled_from(VOLTAGES))
-            c.parts.append(P("vsource", new_id("V"), (a, b), text, value))
+            c.parts.append(P("voltage_source", new_id("V"), (a, b), text, value))
         elif kind == "vcvs":
             text, value = draw(st.sampled_from(VOLTAGE_GAINS))
             ctrl = tuple(draw(st.lists(st.sampled_from(everyone), min_size=2, max_size=2, unique=True)))
@@ -166,10 +166,10 @@ def circuits(draw) -> Drawn:
             c.parts.append(P("ccvs", new_id("H"), (a, b), text, value, sensed()))
     for _ in range(draw(st.integers(0, 3))):
         a, b = draw(st.lists(st.sampled_from(everyone), min_size=2, max_size=2, unique=True))
-        kind = draw(st.sampled_from(["isource", "vccs", "cccs"]))
-        if kind == "isource":
+        kind = draw(st.sampled_from(["current_source", "vccs", "cccs"]))
+        if kind == "current_source":
             text, value = draw(st.sampled_from(CURRENTS))
-            c.parts.append(P("isource", new_id("I"), (a, b), text, value))
+            c.parts.append(P("current_source", new_id("I"), (a, b), text, value))
         elif kind == "vccs":
             text, value = draw(st.sampled_from(TRANSCONDUCTANCES))
             ctrl = tuple(draw(st.lists(st.sampled_from(everyone), min_size=2, max_size=2, unique=True)))
@@ -239,7 +239,7 @@ def mna(c: Drawn, s0, number):
     for p in c.parts:
         if p.kind in ("resistor", "capacitor"):
             add_current(p.nodes[0], p.nodes[1], voltage_row(p.nodes[0], p.nodes[1], admittance(p)))
-        elif p.kind == "isource":
+        elif p.kind == "current_source":
             a, b_ = p.nodes
             if a in idx:
                 b[idx[a]] -= number(p.value)
@@ -254,7 +254,7 @@ def mna(c: Drawn, s0, number):
             add_current(*p.nodes, {j: number(1)})
             for k, v in voltage_row(*p.nodes, number(1)).items():
                 A[j][k] += v
-            if p.kind == "vsource":
+            if p.kind == "voltage_source":
                 b[j] = number(p.value)
             elif p.kind == "vcvs":
                 for k, v in voltage_row(*p.control, number(p.value)).items():
@@ -328,9 +328,9 @@ def test_random_circuit_satisfies_every_law_and_matches_numpy_mna(c: Drawn, freq
             law = i[p.id] * q(p.value) - across
         elif p.kind == "capacitor":
             law = i[p.id] - s0 * q(p.value) * across
-        elif p.kind == "vsource":
+        elif p.kind == "voltage_source":
             law = across - q(p.value)
-        elif p.kind == "isource":
+        elif p.kind == "current_source":
             law = i[p.id] - q(p.value)
         elif p.kind == "vcvs":
             law = across - q(p.value) * (v[p.control[0]] - v[p.control[1]])

@@ -21,7 +21,7 @@ R1 = "10k"
 R2 = "100k"
 RL = "2k"
 [parts]
-Vs = { kind = "vsource", nodes = ["in", "gnd"], value = "Vin" }
+Vs = { kind = "voltage_source", nodes = ["in", "gnd"], value = "Vin" }
 R1 = { kind = "resistor", nodes = ["in", "inv"], value = "R1" }
 R2 = { kind = "resistor", nodes = ["inv", "out"], value = "R2" }
 RL = { kind = "resistor", nodes = ["out", "gnd"], value = "RL" }

@@ -39,7 +39,7 @@ Vin = ""
 R = "1k"
 C = "1uF"
 [parts]
-VS = { kind = "vsource", nodes = ["in", "gnd"], value = "Vin" }
+VS = { kind = "voltage_source", nodes = ["in", "gnd"], value = "Vin" }
 R1 = { kind = "resistor", nodes = ["in", "a"], value = "R" }
 C1 = { kind = "capacitor", nodes = ["a", "gnd"], value = "C" }
 U1 = { kind = "opamp", plus = "a", minus = "b", out = "b" }

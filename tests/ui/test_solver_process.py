@@ -21,7 +21,7 @@ from nodeterm.ui.results_pane import results_text
 def chain(stages: int) -> str:
     """RC low-pass + non-inverting gain stages with shared symbols (a demo of our own)."""
     lines = ['title = "gain chain"', "[parameters]", 'Vin = ""', 'R = "10k"', 'C = "10n"', 'Rf = "22k"',
-             'Rg = "10k"', "[parts]", 'VS = { kind = "vsource", nodes = ["in", "gnd"], value = "Vin" }']
+             'Rg = "10k"', "[parts]", 'VS = { kind = "voltage_source", nodes = ["in", "gnd"], value = "Vin" }']
     prev = "in"
     for k in range(1, stages + 1):
         lines += [f'RS{k} = {{ kind = "resistor", nodes = ["{prev}", "a{k}"], value = "R" }}',
@@ -61,10 +61,10 @@ def test_child_process_gives_the_same_text_as_this_process():
 
 
 def test_engine_errors_come_back_as_themselves():
-    text = ('[parts]\nVS = { kind = "vsource", nodes = ["a", "gnd"], value = "1" }\n'
+    text = ('[parts]\nVS = { kind = "voltage_source", nodes = ["a", "gnd"], value = "1" }\n'
             'R1 = { kind = "resistor", nodes = ["a", "out"], value = "1k" }\n'
-            'I1 = { kind = "isource", nodes = ["out", "x"], value = "1m" }\n'
-            'I2 = { kind = "isource", nodes = ["x", "gnd"], value = "1m" }\n')  # x: only current sources
+            'I1 = { kind = "current_source", nodes = ["out", "x"], value = "1m" }\n'
+            'I2 = { kind = "current_source", nodes = ["x", "gnd"], value = "1m" }\n')  # x: only current sources
     system = build_system(parse_circuit(text))
     with pytest.raises(SolveError) as local:
         system.solve()
@@ -86,7 +86,7 @@ def own_symbols_chain(stages: int) -> str:
     """The same chain with every part its own symbol: 14 stages take seconds to solve and print
     (16 are refused at once: the exact answer would pass the term limit)."""
     lines = ['title = "gain chain, every part its own symbol"', "[parameters]", 'Vin = ""']
-    parts = ['VS = { kind = "vsource", nodes = ["in", "gnd"], value = "Vin" }']
+    parts = ['VS = { kind = "voltage_source", nodes = ["in", "gnd"], value = "Vin" }']
     prev = "in"
     for k in range(1, stages + 1):
         lines += [f'R{k} = "{k}k"', f'C{k} = "10n"', f'Rf{k} = "22k"', f'Rg{k} = "10k"']

@@ -67,7 +67,7 @@ async def test_singular_circuit_reports_without_dying(tmp_path):
     path = tmp_path / "open_loop.toml"
     # an op-amp whose output feeds nothing back: the ideal rules leave V_out undetermined
     path.write_text('reference = "gnd"\n[parameters]\nVin = ""\nR1 = "1k"\n[parts]\n'
-                    'Vs = { kind = "vsource", nodes = ["in", "gnd"], value = "Vin" }\n'
+                    'Vs = { kind = "voltage_source", nodes = ["in", "gnd"], value = "Vin" }\n'
                     'R1 = { kind = "resistor", nodes = ["in", "x"], value = "R1" }\n'
                     'R2 = { kind = "resistor", nodes = ["x", "gnd"], value = "R1" }\n'
                     'RL = { kind = "resistor", nodes = ["out", "gnd"], value = "R1" }\n'

@@ -68,7 +68,7 @@ def source_cautions(circuit, values: dict | None = None) -> list[Warning]:
     subs = {param(n): v for n, v in resolved_values(circuit, values).items()}
     out = []
     for p in circuit.parts:
-        if p.kind != "vsource":
+        if p.kind != "voltage_source":
             continue
         v = _number(p.value, subs)
         if v is not None:

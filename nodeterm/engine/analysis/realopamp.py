@@ -36,7 +36,7 @@ def ideal_variant(circuit):
     >>> from nodeterm.engine.circuit.loader import parse_circuit
     >>> c = parse_circuit('''
     ... [parts]
-    ... V1 = { kind = "vsource", nodes = ["in", "gnd"], value = 1 }
+    ... V1 = { kind = "voltage_source", nodes = ["in", "gnd"], value = 1 }
     ... R1 = { kind = "resistor", nodes = ["out", "gnd"], value = "1k" }
     ... U1 = { kind = "opamp", plus = "in", minus = "out", out = "out", gain = "100k", gbw = "1M" }
     ... ''')

@@ -38,7 +38,7 @@ equations and explains the difference in terms of circuit parts.
 ... R1 = ""
 ... R2 = ""
 ... [parts]
-... Vs = { kind = "vsource", nodes = ["in", "gnd"], value = "Vin" }
+... Vs = { kind = "voltage_source", nodes = ["in", "gnd"], value = "Vin" }
 ... Ra = { kind = "resistor", nodes = ["in", "inv"], value = "R1" }
 ... Rb = { kind = "resistor", nodes = ["inv", "out"], value = "R2" }
 ... U1 = { kind = "opamp", plus = "gnd", minus = "inv", out = "out" }

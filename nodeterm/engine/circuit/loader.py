@@ -23,7 +23,7 @@ from nodeterm.engine.errors import InputError, Warning
 from nodeterm.engine.circuit.expr import MAX_LITERAL_DIGITS, ExpressionError, parse_expression
 from nodeterm.engine.circuit.file_lines import _Lines
 from nodeterm.engine.circuit.model import Circuit, FindItem, HandItem, Parameter
-from nodeterm.engine.circuit.parts import KINDS, Part
+from nodeterm.engine.circuit.parts import KINDS, Part, suggest_kind
 from nodeterm.engine.circuit.size_limits import _SizeLimits
 from nodeterm.engine.symbols import I, V, param, s
 
@@ -265,7 +265,10 @@ class _Loader:
             if not isinstance(kind, str) or kind not in KINDS:  # kind = [] is not hashable
                 raise self.error(f"part {pid}: unknown kind {kind!r}" if kind is not None
                                  else f"part {pid} has no kind",
-                                 hint=_did_you_mean(kind, KINDS) + "kinds: " + ", ".join(KINDS), line=line)
+                                 hint=(f"did you mean {suggest_kind(kind)!r}? " if suggest_kind(kind) else "")
+                                 + "kinds: " + ", ".join(KINDS), line=line,
+                                 column=self.where.column_of(line, kind, after="kind") if isinstance(kind, str)
+                                 else None)
             cls = KINDS[kind]
             given = set(raw) - {"kind"}
             missing = [k for k in cls.keys if k not in given]

@@ -15,6 +15,8 @@ one class here (registered in ``KINDS``) and one test.
 
 from __future__ import annotations
 
+import difflib
+import re
 from dataclasses import dataclass
 from typing import ClassVar, Protocol
 
@@ -177,7 +179,7 @@ class Inductor(_Passive):
 
 @dataclass(frozen=True)
 class CurrentSource(Part):
-    kind: ClassVar[str] = "isource"
+    kind: ClassVar[str] = "current_source"
     keys: ClassVar[tuple[str, ...]] = ("nodes", "value")
     describe: ClassVar[str] = "current value flows a -> b through it"
 
@@ -208,7 +210,7 @@ class CCCS(Part):
 
 @dataclass(frozen=True)
 class VoltageSource(Part):
-    kind: ClassVar[str] = "vsource"
+    kind: ClassVar[str] = "voltage_source"
     keys: ClassVar[tuple[str, ...]] = ("nodes", "value")
     describe: ClassVar[str] = "V_p - V_n = value; I flows p -> n through it"
     independent: ClassVar[bool] = True
@@ -378,3 +380,31 @@ KINDS: dict[str, type[Part]] = {
     for cls in (Resistor, Capacitor, Inductor, VoltageSource, CurrentSource,
                 VCVS, VCCS, CCVS, CCCS, OpAmp)
 }
+
+
+def suggest_kind(word: object) -> str | None:
+    """The kind a misspelt or abbreviated kind word most likely means, or None.
+
+    Kind words are the trade's full words. A source abbreviated by the letter of
+    the quantity it sets (V for voltage, I for current) is recognised, as is any
+    near miss, whatever its case or separators.
+
+    >>> suggest_kind("isource"), suggest_kind("Voltage Source"), suggest_kind("resistr")
+    ('current_source', 'voltage_source', 'resistor')
+    >>> suggest_kind("diode") is None
+    True
+    """
+    if not isinstance(word, str):
+        return None
+    plain = re.sub(r"[^a-z]", "", word.lower())
+    for stem in ("source", "src", "sourc"):
+        if plain.endswith(stem) and len(plain) > len(stem):
+            head = plain[: -len(stem)]
+            if "voltage".startswith(head) or head == "v":
+                return "voltage_source"
+            if "current".startswith(head) or head == "i":
+                return "current_source"
+    flat = {k.replace("_", ""): k for k in KINDS}
+    close = difflib.get_close_matches(plain, list(flat), n=1)
+    return flat[close[0]] if close else None
+

@@ -143,7 +143,7 @@ def _check_connected(circuit: Circuit) -> None:
 
 def _dc_path_warnings(circuit: Circuit) -> list[Warning]:
     """Nodes that reach the reference only through capacitors or current sources."""
-    lost = _unreached(circuit, skip=("capacitor", "isource", "vccs", "cccs"))
+    lost = _unreached(circuit, skip=("capacitor", "current_source", "vccs", "cccs"))
     if not lost:
         return []
     return [Warning("no-dc-path", f"node{'s' if len(lost) > 1 else ''} {', '.join(lost)} reach"

@@ -54,7 +54,7 @@ def build_system(circuit: Circuit) -> "System":
     >>> from nodeterm.engine.circuit.loader import parse_circuit
     >>> c = parse_circuit('''
     ... [parts]
-    ... Vs = { kind = "vsource", nodes = ["in", "gnd"], value = "Vin" }
+    ... Vs = { kind = "voltage_source", nodes = ["in", "gnd"], value = "Vin" }
     ... R1 = { kind = "resistor", nodes = ["in", "inv"], value = "R1" }
     ... R2 = { kind = "resistor", nodes = ["inv", "out"], value = "R2" }
     ... U1 = { kind = "opamp", plus = "gnd", minus = "inv", out = "out" }

@@ -11,7 +11,7 @@ import sympy
 
 from nodeterm.engine.errors import SolveError
 
-CURRENT_KINDS = ("isource", "vccs", "cccs")
+CURRENT_KINDS = ("current_source", "vccs", "cccs")
 
 
 def _components(circuit, skip_kinds, skip_part=None, block=()):

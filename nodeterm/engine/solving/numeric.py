@@ -74,7 +74,7 @@ class NumericModel:
     >>> from nodeterm.engine.circuit.loader import parse_circuit
     >>> c = parse_circuit('''
     ... [parts]
-    ... V1 = { kind = "vsource", nodes = ["a", "gnd"], value = "10" }
+    ... V1 = { kind = "voltage_source", nodes = ["a", "gnd"], value = "10" }
     ... R1 = { kind = "resistor", nodes = ["a", "b"], value = "1k" }
     ... R2 = { kind = "resistor", nodes = ["b", "gnd"], value = "4k" }
     ... ''')
