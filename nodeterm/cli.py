@@ -163,7 +163,7 @@ def register_subcommand(fn):
 
 def _load_extensions() -> None:
     import importlib
-    for mod in ("nodeterm.cli_audit", "nodeterm.cli_analysis"):
+    for mod in ("nodeterm.cli_audit", "nodeterm.cli_analysis", "nodeterm.cli_diff"):
         try:
             importlib.import_module(mod)
         except ModuleNotFoundError as err:
