@@ -95,8 +95,27 @@ def _sections(tf) -> dict:
 _SECTION_NAMES = {0: "at the origin", 1: "corner", 2: "pair"}
 
 
+def _second_order(tf):
+    """(w0, Q) of a denominator of order 2, read from its coefficients (whether or not it factors)."""
+    if tf is None or len(tf.den_coeffs) != 3:
+        return None
+    a2, a1, a0 = (as_expr(c) for c in tf.den_coeffs)
+    if a2 == 0 or a1 == 0:
+        return None
+    return sympy.sqrt(a0 / a2), sympy.sqrt(a0 * a2) / a1
+
+
+def _roots_text_ok(roots) -> bool:
+    return roots is not None and all(_number(r) for r in roots)
+
+
 def moves(old_tf, new_tf) -> list[Move]:
-    """Gains, corners, w0 and Q of two transfer functions that differ (either may be None)."""
+    """Gains, w0 and Q, corners and poles/zeros of two transfer functions that differ (either may be None).
+
+    A second-order denominator gives w0 = sqrt(a0/a2) and Q = sqrt(a0*a2)/a1 directly, so a pole pair
+    that splits into two real poles (Q below 1/2) still shows its Q moving; higher orders are read
+    section by section.
+    """
     out: list[Move] = []
     if old_tf is None and new_tf is None:
         return out
@@ -105,6 +124,24 @@ def moves(old_tf, new_tf) -> list[Move]:
         b = getattr(new_tf, attr, None)
         if not same_expr(a, b):
             out.append(Move(what, a, b, relative(a, b)))
+    pair_old, pair_new = _second_order(old_tf), _second_order(new_tf)
+    if pair_old is not None or pair_new is not None:
+        for i, what in ((0, "w0 (rad/s)"), (1, "Q")):
+            a = pair_old[i] if pair_old else None
+            b = pair_new[i] if pair_new else None
+            if not same_expr(a, b):
+                out.append(Move(what, a, b, relative(a, b)))
+    else:
+        out += _section_moves(old_tf, new_tf)
+    for what, attr in (("poles", "poles"), ("zeros", "zeros")):
+        a, b = getattr(old_tf, attr, None), getattr(new_tf, attr, None)
+        if _roots_text_ok(a) and _roots_text_ok(b) and not _same_roots(a, b):
+            out.append(Move(what, tuple(a), tuple(b)))
+    return out
+
+
+def _section_moves(old_tf, new_tf) -> list[Move]:
+    out: list[Move] = []
     old_secs = _sections(old_tf) if old_tf is not None else {}
     new_secs = _sections(new_tf) if new_tf is not None else {}
     for key in list(dict.fromkeys(list(old_secs) + list(new_secs))):
@@ -119,7 +156,7 @@ def moves(old_tf, new_tf) -> list[Move]:
                 if ma != mb:
                     out.append(Move(f"{where}s at the origin", sympy.Integer(ma), sympy.Integer(mb)))
                 continue
-            w_what = f"w0 of {name}" if order == 2 else f"{name} (rad/s)"
+            w_what = f"w0 of {name} (rad/s)" if order == 2 else f"{name} (rad/s)"
             a_w, b_w = getattr(a, "w0", None), getattr(b, "w0", None)
             if not same_expr(a_w, b_w):
                 out.append(Move(w_what, a_w, b_w, relative(a_w, b_w)))
@@ -127,11 +164,6 @@ def moves(old_tf, new_tf) -> list[Move]:
                 a_q, b_q = getattr(a, "q", None), getattr(b, "q", None)
                 if not same_expr(a_q, b_q):
                     out.append(Move(f"Q of {name}", a_q, b_q, relative(a_q, b_q)))
-    if not old_secs and not new_secs:
-        for what, attr in (("poles", "poles"), ("zeros", "zeros")):
-            a, b = getattr(old_tf, attr, None), getattr(new_tf, attr, None)
-            if a is not None and b is not None and not _same_roots(a, b):
-                out.append(Move(what, tuple(a), tuple(b)))
     return out
 
 
