@@ -24,11 +24,10 @@ import pytest
 import sympy
 
 from nodeterm.cli import main
-from nodeterm.engine.circuit.parts import KINDS
 from nodeterm.engine.review import diff_circuits
 from nodeterm.engine import parse_circuit
 
-VSRC = "voltage_source" if "voltage_source" in KINDS else "vsource"
+VSRC = "voltage_source"
 
 INVERTING = f"""title = "Greenhouse light sensor stage, inverting"
 reference = "gnd"

@@ -9,7 +9,7 @@ part and parameter changes; what could not be compared is said in ``notes``.
 >>> from nodeterm.engine.circuit.loader import parse_circuit
 >>> a = parse_circuit('''
 ... [parts]
-... V1 = { kind = "vsource", nodes = ["in", "gnd"], value = "1" }
+... V1 = { kind = "voltage_source", nodes = ["in", "gnd"], value = "1" }
 ... R1 = { kind = "resistor", nodes = ["in", "mid"], value = "1k" }
 ... R2 = { kind = "resistor", nodes = ["mid", "gnd"], value = "1k" }
 ... [find]
