@@ -21,8 +21,25 @@ _MARK = {ADDED: "+", REMOVED: "-", CHANGED: "~", RENAMED: "~", APPEARED: "+", VA
          FLIPPED: "!"}
 
 
+LONG = 400
+"""Expressions longer than this many characters are shortened in the text and Markdown reports
+(``--json`` keeps them whole)."""
+
+
+def shorten(text: str, limit: int = LONG) -> str:
+    """``text``, or its start and end around a count of what was left out.
+
+    >>> shorten("x" * 10, 8)
+    'xxxxx ... x [10 characters; --json has it whole]'
+    """
+    if len(text) <= limit:
+        return text
+    head, tail = limit * 2 // 3, limit // 6
+    return f"{text[:head]} ... {text[-tail:]} [{len(text)} characters; --json has it whole]"
+
+
 def _expr(x) -> str:
-    return "" if x is None else expr_text(x)
+    return "" if x is None else shorten(expr_text(x))
 
 
 def percent(rel) -> str:
@@ -42,7 +59,7 @@ def percent(rel) -> str:
 
 
 def _value(x) -> str:
-    return "(none)" if x is None else value_text(x)
+    return "(none)" if x is None else shorten(value_text(x))
 
 
 def summary(diff: CircuitDiff) -> str:
@@ -88,21 +105,21 @@ def _node_entry(c, code) -> tuple[str, list[str]]:
 def _equation_entry(c, code) -> tuple[str, list[str]]:
     label = c.label + (f" (was at {c.old_at})" if c.old_at else "")
     if c.change == ADDED:
-        return f"{label}: new", [code(equation_text(c.new))]
+        return f"{label}: new", [code(shorten(equation_text(c.new)))]
     if c.change == REMOVED:
-        return f"{label}: gone", [code(equation_text(c.old))]
+        return f"{label}: gone", [code(shorten(equation_text(c.old)))]
     details = []
     for t in c.terms:
         if t.change == ADDED:
-            details.append(f"+ {t.part}: {code(expr_text(t.new, hand=True))} (term added)")
+            details.append(f"+ {t.part}: {code(shorten(expr_text(t.new, hand=True)))} (term added)")
         elif t.change == REMOVED:
-            details.append(f"- {t.part}: {code(expr_text(t.old, hand=True))} (term removed)")
+            details.append(f"- {t.part}: {code(shorten(expr_text(t.old, hand=True)))} (term removed)")
         else:
-            details.append(f"~ {t.part}: {code(expr_text(t.old, hand=True))} -> "
-                           f"{code(expr_text(t.new, hand=True))} ({t.how})")
+            details.append(f"~ {t.part}: {code(shorten(expr_text(t.old, hand=True)))} -> "
+                           f"{code(shorten(expr_text(t.new, hand=True)))} ({t.how})")
     if not c.terms:
-        details.append(f"was {code(equation_text(c.old))}")
-        details.append(f"now {code(equation_text(c.new))}")
+        details.append(f"was {code(shorten(equation_text(c.old)))}")
+        details.append(f"now {code(shorten(equation_text(c.new)))}")
     if c.how:
         details.append(c.how)
     return label, details
@@ -125,12 +142,16 @@ def _result_entry(c, code) -> tuple[str, list[str]]:
         if c.old_value is not None or c.new_value is not None:
             old_v = c.old_value if c.old_value is not None else c.old
             new_v = c.new_value if c.new_value is not None else c.new
-            line = f"with the file's values: {code(_value(old_v))} -> {code(_value(new_v))}"
             pct = percent(c.relative)
+            if c.ratio is not None and is_numeric(c.ratio) and min(len(_value(old_v)), len(_value(new_v))) > 120:
+                line = f"with the file's values: the old result times {code(value_text(c.ratio))}"
+            else:
+                line = f"with the file's values: {code(_value(old_v))} -> {code(_value(new_v))}"
             details.append(line + (f" ({pct})" if pct else ""))
         elif percent(c.relative):
             details.append(f"relative change {percent(c.relative)}")
-        if c.ratio is not None and not is_numeric(c.ratio):
+        if c.ratio is not None and not is_numeric(c.ratio) and \
+                len(expr_text(c.ratio)) < min(len(expr_text(c.old)), len(expr_text(c.new))):
             details.append(f"new/old = {code(_expr(c.ratio))}")
         if c.sign_flip:
             details.append("sign flipped")

@@ -27,8 +27,9 @@ from __future__ import annotations
 
 from nodeterm.engine.circuit.model import Circuit
 from nodeterm.engine.errors import InputError
+from nodeterm.engine.symbols import as_expr, s
 from nodeterm.engine.review.matching import match_nodes, match_parts
-from nodeterm.engine.review.outcomes import Side, claim_changes, result_changes, warning_changes
+from nodeterm.engine.review.outcomes import Side, claim_changes, reading, result_changes, warning_changes
 from nodeterm.engine.review.records import CircuitDiff
 from nodeterm.engine.review.structure import (equation_changes, node_changes, parameter_changes,
                                               part_changes)
@@ -56,10 +57,22 @@ def _side(study) -> Side:
     valued = transfer = None
     if numeric is not None:
         valued, _ = _attempt(lambda: dict(numeric.solution.find))
-        transfer, _ = _attempt(lambda: dict(numeric.transfer))
+    transfer = _readings(numeric, valued if valued is not None else find)
     verdicts, _ = _attempt(lambda: tuple(study.verdicts))
     warnings, _ = _attempt(lambda: tuple((numeric or study).warnings))
     return Side(find, valued, transfer, verdicts, warnings or ())
+
+
+def _readings(numeric, results: dict) -> dict:
+    """H(s) of the results in s: the study's transfer functions when every value is a number (poles,
+    zeros and sections are cheap then), else a light reading (gains, w0 and Q from the coefficients;
+    exact symbolic roots can take seconds and are not compared)."""
+    in_s = {n: v for n, v in results.items() if not getattr(v, "is_large", False) and as_expr(v).has(s)}
+    if numeric is not None and in_s and all(as_expr(v).free_symbols <= {s} for v in in_s.values()):
+        transfer, _ = _attempt(lambda: dict(numeric.transfer))
+        if transfer is not None:
+            return transfer
+    return {n: r for n, r in ((n, reading(v)) for n, v in in_s.items()) if r is not None}
 
 
 def diff_studies(old, new, old_label: str = "", new_label: str = "") -> CircuitDiff:

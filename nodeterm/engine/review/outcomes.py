@@ -95,6 +95,47 @@ def _sections(tf) -> dict:
 _SECTION_NAMES = {0: "at the origin", 1: "corner", 2: "pair"}
 
 
+class Reading:
+    """The parts of H(s) the diff compares, read cheaply from a symbolic result (no exact roots).
+
+    Numeric results use :class:`nodeterm.engine.analysis.transfer.TransferFunction` instead, which
+    also gives poles, zeros and sections; both have these attributes.
+    """
+
+    def __init__(self, expr) -> None:
+        num, den = sympy.fraction(as_expr(expr))
+        nc = sympy.Poly(num, s).all_coeffs()
+        dc = sympy.Poly(den, s).all_coeffs()
+        if dc[0].is_number and dc[0] < 0:
+            nc, dc = [-c for c in nc], [-c for c in dc]
+        self.num_coeffs, self.den_coeffs = tuple(nc), tuple(dc)
+        self.poles = self.zeros = None
+        self.sections = ()
+        if dc[-1] == 0:
+            self.dc_gain = sympy.oo if nc[-1] != 0 else sympy.nan
+        else:
+            self.dc_gain = sympy.cancel(nc[-1] / dc[-1])
+        if len(nc) > len(dc):
+            self.hf_gain = sympy.oo
+        elif len(nc) < len(dc):
+            self.hf_gain = sympy.Integer(0)
+        else:
+            self.hf_gain = sympy.cancel(nc[0] / dc[0])
+
+
+def reading(expr):
+    """A :class:`Reading` of a result in s, or None (not in s, too large to read, not a ratio of polynomials)."""
+    if expr is None or getattr(expr, "is_large", False):
+        return None
+    expr = as_expr(expr)
+    if not expr.has(s) or sympy.count_ops(expr) > COMPARE_LIMIT:
+        return None
+    try:
+        return Reading(expr)
+    except sympy.PolynomialError:
+        return None
+
+
 def _second_order(tf):
     """(w0, Q) of a denominator of order 2, read from its coefficients (whether or not it factors)."""
     if tf is None or len(tf.den_coeffs) != 3:
