@@ -6,38 +6,22 @@
 ``nodeterm sensitivity FILE`` normalized sensitivities, ranked
 ``nodeterm tolerance FILE``   Monte Carlo and worst case over the parameter tolerances
 
-Values come from the file, then ``--set NAME=VALUE``. Exit 0 ok, 1 a limit is exceeded
-(``limits``), 2 bad input. Never imports Textual.
+The common options mean what they mean everywhere (:mod:`nodeterm.cli_common`): ``--set``,
+``--known`` and ``--relations`` choose what is substituted into the exact results shown; the numbers
+(responses, limits, Monte Carlo, real op-amp errors) always use every value known, the file's
+overridden by ``--set``. Exit 0 ok, 1 a limit is exceeded (``limits``), 2 bad input. Never imports
+Textual.
 """
 
 from __future__ import annotations
 
-import argparse
 import sys
 
-import sympy
-
-from nodeterm.cli import DEFAULT_TIME_LIMIT, command, parse_sets, register_subcommand
-from nodeterm.engine import InputError, build_system, load_circuit
+from nodeterm.cli_common import add_common, strict_status, study_from
 from nodeterm.engine.circuit.expr import ExpressionError, parse_expression
-from nodeterm.engine.symbols import param
+from nodeterm.engine.errors import InputError, SolveError
 
 CMDLINE = "<command line>"
-
-
-def _values(circuit, args) -> dict[str, sympy.Expr]:
-    """--set values parsed with the expression parser (never sympify)."""
-    out = {}
-    params = circuit.parameters
-    for name, text in parse_sets(getattr(args, "set", None)).items():
-        if name not in params:
-            raise InputError(f"--set {name}: no parameter {name!r} in the circuit",
-                             hint="parameters: " + (", ".join(params) or "(none)"), file=CMDLINE)
-        try:
-            out[name] = parse_expression(text, lambda n: param(n) if n in params else None)
-        except ExpressionError as err:
-            raise InputError(f"--set {name}={text}: {err.message}", hint=err.hint, file=CMDLINE) from None
-    return out
 
 
 def _frequency(text: str | None, option: str) -> float | None:
@@ -76,21 +60,9 @@ def _finish(lines, warnings, ascii_only: bool) -> None:
     sys.stdout.write(text + "\n")
 
 
-def _common(p: argparse.ArgumentParser) -> None:
-    p.add_argument("file", help="circuit file (TOML)")
-    p.add_argument("--set", action="append", metavar="NAME=VALUE",
-                   help="override a parameter value (repeatable), e.g. --set R1=10k")
-    p.add_argument("--known", action="store_true",
-                   help="accepted for symmetry with solve: the analyses always use the file's values")
-    p.add_argument("--ascii", action="store_true", help="7-bit output only")
-    p.add_argument("--time-limit", type=float, default=DEFAULT_TIME_LIMIT, metavar="SECONDS",
-                   help=f"give up after this many seconds (default {DEFAULT_TIME_LIMIT:g}; 0 for no limit)")
-
-
-@register_subcommand
-def _add(sub) -> None:
+def add_parsers(sub) -> None:
     p = sub.add_parser("response", help="H(s) = N/D, poles, zeros, w0/Q, frequency response")
-    _common(p)
+    add_common(p)
     p.add_argument("--find", metavar="NAME", help="only this [find] quantity")
     p.add_argument("--from", dest="f_from", metavar="FREQ", help="lowest frequency (Hz), e.g. 10")
     p.add_argument("--to", dest="f_to", metavar="FREQ", help="highest frequency (Hz), e.g. 100k")
@@ -101,19 +73,19 @@ def _add(sub) -> None:
     p.add_argument("--height", type=int, default=22, help="plot height in lines")
 
     p = sub.add_parser("real", help="[find] quantities with ideal op-amps against the real model")
-    _common(p)
+    add_common(p)
     p.add_argument("--at", metavar="FREQ", help="frequency for the relative error (default 1 kHz)")
 
     p = sub.add_parser("limits", help="op-amp output voltage and current against rails and max_current")
-    _common(p)
+    add_common(p)
     p.add_argument("--load", metavar="NAME", help="the load parameter for the compliance range "
                                                   "(default: the one parameter left without a value)")
 
     p = sub.add_parser("sensitivity", help="normalized sensitivity of each quantity to each parameter")
-    _common(p)
+    add_common(p)
 
     p = sub.add_parser("tolerance", help="Monte Carlo and worst case over the parameter tolerances")
-    _common(p)
+    add_common(p)
     p.add_argument("--samples", type=int, default=10000, help="number of Monte Carlo samples (default 10000)")
     p.add_argument("--seed", type=int, default=1, help="random seed (default 1)")
     p.add_argument("--distribution", choices=("uniform", "normal"),
@@ -122,48 +94,50 @@ def _add(sub) -> None:
     p.add_argument("--bins", type=int, default=20, help="histogram bins (default 20)")
 
 
-@command("response")
 def cmd_response(args) -> int:
-    from nodeterm.engine.analysis.realopamp import prepared
-    from nodeterm.engine.analysis.transfer import auto_range, frequency_response, transfer_functions
+    from nodeterm.engine.analysis.transfer import auto_range, frequency_response
     from nodeterm.engine.solving.fastsolve import ResultTooLarge
     from nodeterm.present.analysis import response_csv, response_plot, response_table, transfer_lines
     f_lo, f_hi = frequency_range(args.f_from, args.f_to)
     if args.points < 2:
         raise InputError(f"--points {args.points} is too few", hint="give at least 2", file=CMDLINE)
-    circuit = load_circuit(args.file)
-    values = _values(circuit, args)
+    study = study_from(args)
+    circuit = study.circuit
     if args.find is not None and args.find not in circuit.find:
-        raise InputError(f"--find {args.find!r} is not a [find] quantity",
+        from nodeterm.engine.values import did_you_mean
+        near = did_you_mean(args.find, circuit.find)
+        raise InputError(f"--find {args.find!r} is not a [find] quantity" + (f"; {near}" if near else ""),
                          hint="[find]: " + (", ".join(circuit.find) or "(none)"), file=CMDLINE)
-    system = prepared(circuit, values)
-    tfs = transfer_functions(system.solve(), circuit)
-    try:  # the symbolic form is shown beside the numbers when it is not too large
-        tfs_sym = transfer_functions(build_system(circuit).solve(), circuit) if system.values else tfs
+    numeric = study.numeric
+    tfs = numeric.transfer
+    try:  # the exact form with the values in effect is shown beside the numbers when it is not too large
+        tfs_sym = study.transfer if study is not numeric else tfs
         too_large = ""
     except ResultTooLarge as exc:
         tfs_sym, too_large = {}, exc.message
     if args.find:
         tfs_sym = {k: v for k, v in tfs_sym.items() if k == args.find}
         tfs = {k: v for k, v in tfs.items() if k == args.find}
-    numeric = [tf for tf in tfs.values() if tf.is_numeric]
-    if len(numeric) > 1 and (f_lo is None or f_hi is None):
+    numeric_tfs = [tf for tf in tfs.values() if tf.is_numeric]
+    if len(numeric_tfs) > 1 and (f_lo is None or f_hi is None):
         # one shared range, so that the CSV's frequency column serves every quantity
-        ranges = [auto_range(tf) for tf in numeric]
+        ranges = [auto_range(tf) for tf in numeric_tfs]
         f_lo = min(r[0] for r in ranges) if f_lo is None else f_lo
         f_hi = max(r[1] for r in ranges) if f_hi is None else f_hi
     lines: list[str] = []
     if not tfs:
         lines.append("No [find] quantity depends on s: the circuit has no capacitor, inductor or op-amp gbw "
                      "in its path (or ask for a ratio such as V_out/V_in in [find]).")
+    in_effect = "With the values substituted (" + "; ".join(study.choice.describe()) + "):" \
+        if study.choice.steps else "With every parameter as a symbol:"
     responses = []
     for name, tf in tfs.items():
         if name in tfs_sym:
-            lines += ["With every parameter as a symbol:"] + ["  " + ln for ln in transfer_lines(tfs_sym[name], args.ascii)]
+            lines += [in_effect] + ["  " + ln for ln in transfer_lines(tfs_sym[name], args.ascii)]
         else:
-            lines += [f"With every parameter as a symbol: not shown ({too_large}).", ""]
-        if system.values and (name not in tfs_sym or tf.expr != tfs_sym[name].expr):
-            lines += ["", "With the values:"] + ["  " + ln for ln in transfer_lines(tf, args.ascii)]
+            lines += [f"{in_effect[:-1]}: not shown ({too_large}).", ""]
+        if study is not numeric and (name not in tfs_sym or tf.expr != tfs_sym[name].expr):
+            lines += ["", "With every value known:"] + ["  " + ln for ln in transfer_lines(tf, args.ascii)]
         if tf.is_numeric:
             resp = frequency_response(tf, f_lo, f_hi, args.points)
             responses.append(resp)
@@ -185,43 +159,43 @@ def cmd_response(args) -> int:
         from nodeterm.present.export import write_atomic
         write_atomic(args.csv, text, force=True)  # asked for by name: replaced, atomically (ExportError says why not)
         lines.append(f"wrote {args.csv}")
-    _finish(lines, _warnings(system), args.ascii)
-    return 0
+    warnings = _warnings(study)
+    _finish(lines, warnings, args.ascii)
+    return strict_status(args, warnings, 0)
 
 
-def _warnings(system, solution=None, checks=()):
-    from nodeterm.engine.analysis.cautions import merge, node_cautions, source_cautions
-    from nodeterm.engine.analysis.limits import limit_warnings
-    extra = source_cautions(system.circuit, system.values)
-    if solution is not None:
-        extra += node_cautions(solution.node_voltages)
-    return merge(system.warnings, extra, limit_warnings(list(checks)))
+def _warnings(study) -> tuple:
+    """The study's warnings and those of its numbers (cautions need values)."""
+    from nodeterm.engine.analysis.cautions import merge
+    try:
+        return tuple(merge(study.warnings, study.numeric.warnings))
+    except SolveError:
+        return tuple(study.system.warnings)
 
 
-@command("real")
 def cmd_real(args) -> int:
-    from nodeterm.engine.analysis.realopamp import compare_models, has_real_model
+    from nodeterm.engine.analysis.realopamp import has_real_model
     from nodeterm.present.analysis import comparison_lines
     f = _frequency(args.at, "--at")
-    circuit = load_circuit(args.file)
-    values = _values(circuit, args)
+    study = study_from(args)
+    circuit = study.circuit
     if not has_real_model(circuit):
         _print([f"{args.file}: no op-amp has gain or gbw, so the real model equals the ideal one.",
                 'Add e.g. gain = "200k", gbw = "1MHz", rin = "2Meg", rout = "75" to an opamp line '
                 "(see docs/circuit-file.md)."])
         return 0
-    cmp = compare_models(circuit, values, f)
-    _finish(comparison_lines(cmp, args.ascii), _warnings(cmp.real_system), args.ascii)
-    return 0
+    cmp = study.comparison(f)
+    warnings = _warnings(study)
+    _finish(comparison_lines(cmp, args.ascii), warnings, args.ascii)
+    return strict_status(args, warnings, 0)
 
 
-@command("limits")
 def cmd_limits(args) -> int:
-    from nodeterm.engine.analysis.limits import check_limits, compliance_range, limited_opamps
-    from nodeterm.engine.analysis.realopamp import prepared
+    from nodeterm.engine.analysis.limits import compliance_range, limited_opamps
     from nodeterm.present.analysis import compliance_lines, limits_lines
-    circuit = load_circuit(args.file)
-    values = _values(circuit, args)
+    study = study_from(args)
+    circuit = study.circuit
+    values = study.choice.set_items
     if not limited_opamps(circuit):
         _print([f"{args.file}: no op-amp has rails or max_current.",
                 'Add e.g. rails = ["-12", "12"], max_current = "20m" to an opamp line.'])
@@ -230,12 +204,10 @@ def cmd_limits(args) -> int:
     if args.load:
         comp = compliance_range(circuit, values, args.load)
         lines += compliance_lines(comp, ascii_only=args.ascii)
-        system = prepared(circuit, {n: v for n, v in values.items() if n != args.load})
-        _finish(lines, _warnings(system), args.ascii)
-        return 0
-    system = prepared(circuit, values)
-    solution = system.solve()
-    checks = check_limits(system, solution)
+        warnings = tuple(study.system.warnings)
+        _finish(lines, warnings, args.ascii)
+        return strict_status(args, warnings, 0)
+    checks = list(study.limits)
     lines += limits_lines(checks, args.ascii)
     if any(not c.checked for c in checks):
         try:
@@ -244,41 +216,24 @@ def cmd_limits(args) -> int:
             lines.append(f"(no load range: {err.message}; {err.hint})")
         else:
             lines += [""] + compliance_lines(comp, ascii_only=args.ascii)
-    _finish(lines, _warnings(system, solution, checks), args.ascii)
-    return 1 if any(c.problems for c in checks) else 0
+    warnings = _warnings(study)
+    _finish(lines, warnings, args.ascii)
+    return 1 if any(c.problems for c in checks) else strict_status(args, warnings, 0)
 
 
-@command("sensitivity")
 def cmd_sensitivity(args) -> int:
-    from nodeterm.engine.analysis.sensitivity import nominal_values, scalar_quantities, sensitivities
     from nodeterm.present.analysis import sensitivity_lines
-    circuit = load_circuit(args.file)
-    values = _values(circuit, args)
-    quantities = scalar_quantities(circuit)
-    sens = sensitivities(quantities, nominal_values(circuit, values))
-    system = build_system(circuit)
-    _finish(sensitivity_lines(sens, args.ascii), _warnings(system.substitute(values) if values else system),
-            args.ascii)
-    return 0
+    study = study_from(args)
+    warnings = _warnings(study)
+    _finish(sensitivity_lines(study.sensitivities, args.ascii), warnings, args.ascii)
+    return strict_status(args, warnings, 0)
 
 
-@command("tolerance")
 def cmd_tolerance(args) -> int:
-    from nodeterm.engine.analysis.sensitivity import nominal_values, scalar_quantities, sensitivities
-    from nodeterm.engine.analysis.tolerance import monte_carlo, spreads, worst_case
     from nodeterm.present.analysis import histogram_plot, tolerance_lines
     if args.bins < 1:
         raise InputError(f"--bins {args.bins} is too few", hint="give at least 1", file=CMDLINE)
-    circuit = load_circuit(args.file)
-    values = _values(circuit, args)
-    nominal = nominal_values(circuit, values)
-    spread_list = spreads(circuit, nominal, args.distribution)
-    if not spread_list:
-        _print([f"{args.file}: no parameter has a tolerance.",
-                'Write a parameter as R1 = { value = "10k", tolerance = "1%" } (distribution = "normal" '
-                "optional)."])
-        return 0
-    quantities = scalar_quantities(circuit)
+    study = study_from(args)
     progress = None
     if sys.stderr.isatty():  # a person watching: one line, rewritten in place; nothing in pipes and logs
         def progress(done: int, total: int) -> None:
@@ -286,12 +241,24 @@ def cmd_tolerance(args) -> int:
             if done == total:
                 sys.stderr.write("\n")
             sys.stderr.flush()
-    mc = monte_carlo(quantities, spread_list, nominal, args.samples, args.seed, progress=progress)
-    wc = worst_case(quantities, spread_list, nominal, sensitivities(quantities, nominal))
+    spread_list, mc, wc = study.tolerance(args.samples, args.seed, args.distribution, progress=progress)
+    if not spread_list:
+        _print([f"{args.file}: no parameter has a tolerance.",
+                'Write a parameter as R1 = { value = "10k", tolerance = "1%" } (distribution = "normal" '
+                "optional)."])
+        return 0
     lines = tolerance_lines(mc, wc, spread_list, args.ascii)
+    fixed = sorted(sp.name for sp in spread_list if sp.name in study.system.values)
+    if fixed:
+        lines += ["", f"note: {', '.join(fixed)} have a tolerance but are substituted (--set/--known/--relations), "
+                      "so they do not vary here."]
     if args.plot:
         for r in mc.values():
             lines += ["", histogram_plot(r, args.bins)]
-    system = build_system(circuit)
-    _finish(lines, _warnings(system.substitute(values) if values else system), args.ascii)
-    return 0
+    warnings = _warnings(study)
+    _finish(lines, warnings, args.ascii)
+    return strict_status(args, warnings, 0)
+
+
+COMMANDS = {"response": cmd_response, "real": cmd_real, "limits": cmd_limits, "sensitivity": cmd_sensitivity,
+            "tolerance": cmd_tolerance}

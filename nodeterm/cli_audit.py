@@ -16,14 +16,16 @@ from __future__ import annotations
 import json
 import sys
 
-from nodeterm.cli import add_common, command, prepare, register_subcommand
-from nodeterm.engine import InputError
-from nodeterm.engine.audit.verdicts import audit_claims, exit_status
+from nodeterm.cli_common import add_common, strict_status, study_from
+from nodeterm.engine.errors import InputError
 from nodeterm.present.export import FORMATS, render, write_atomic
 
+CHECK_RECORDS = ("system", "solution", "verdicts", "warnings")
+EXPORT_RECORDS = ("system", "matrix", "solution", "warnings", "verdicts", "transfer", "limits")
+EXPORT_BUDGETS = {"transfer": 20.0}
 
-@register_subcommand
-def _add_parsers(sub) -> None:
+
+def add_parsers(sub) -> None:
     p = sub.add_parser("check", help="audit the [hand] derivation: one verdict per claim "
                                      "(exit 0 all hold, 1 any fails, 2 bad input)")
     add_common(p)
@@ -36,33 +38,36 @@ def _add_parsers(sub) -> None:
     p.add_argument("--force", action="store_true", help="replace PATH if it exists")
 
 
-@command("check")
 def cmd_check(args) -> int:
+    from nodeterm.engine.audit.verdicts import exit_status
     from nodeterm.present.jsonout import check_dict
     from nodeterm.present.text import verdicts_text
-    system = prepare(args)
-    circuit = system.circuit
+    study = study_from(args)
+    circuit = study.circuit
     if not circuit.hand:
         raise InputError("no claims to check: the file has no [hand] table",
                          hint='add [hand] with your equations, e.g. kcl_inv = "(V_inv - V_in)/R1 + '
                               '(V_inv - V_out)/R2 = 0" (see docs/circuit-file.md)', file=circuit.path)
-    verdicts = audit_claims(system)
+    records = study.records(CHECK_RECORDS)
     if args.json:
-        print(json.dumps(check_dict(system, verdicts), indent=2, ensure_ascii=False))
+        print(json.dumps(check_dict(records), indent=2, ensure_ascii=False))
     else:
-        sys.stdout.write(verdicts_text(verdicts, circuit.path))
-    return exit_status(verdicts)
+        sys.stdout.write(verdicts_text(records.verdicts, circuit.path, ascii_only=args.ascii,
+                                       warnings=records.warnings))
+    return strict_status(args, records.warnings, exit_status(records.verdicts))
 
 
-@command("export")
 def cmd_export(args) -> int:
-    system = prepare(args)
-    solution = system.solve()
-    verdicts = audit_claims(system, solution=solution) if system.circuit.hand else []
-    text = render(system, solution, verdicts, args.to)
+    study = study_from(args)
+    records = study.records(EXPORT_RECORDS, budgets=EXPORT_BUDGETS)
+    fmt = "ascii" if args.ascii and args.to == "text" else args.to
+    text = render(records, fmt)
     if args.output:
         size = write_atomic(args.output, text, force=args.force)
         print(f"nodeterm: wrote {args.output} ({args.to}, {size} bytes)", file=sys.stderr)
     else:
         sys.stdout.write(text)
-    return 0
+    return strict_status(args, records.warnings, 0)
+
+
+COMMANDS = {"check": cmd_check, "export": cmd_export}

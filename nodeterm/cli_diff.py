@@ -11,12 +11,11 @@ from __future__ import annotations
 
 import sys
 
-from nodeterm.cli import DEFAULT_TIME_LIMIT, command, register_subcommand
+from nodeterm.cli_common import DEFAULT_TIME_LIMIT
 from nodeterm.engine import InputError, load_circuit
 
 
-@register_subcommand
-def _add_parser(sub) -> None:
+def add_parsers(sub) -> None:
     p = sub.add_parser("diff", help="what changed between two revisions of a circuit: parts, parameters, "
                                     "equations term by term, results, claims, warnings")
     p.add_argument("file", metavar="OLD", help="the old circuit file (with --since: the file in your working copy)")
@@ -47,7 +46,6 @@ def _circuits(args):
     return load_circuit(args.file), load_circuit(args.new), args.file, args.new
 
 
-@command("diff")
 def cmd_diff(args) -> int:
     from nodeterm.engine.review import diff_circuits
     from nodeterm.present.diff import diff_json, diff_markdown, diff_text
@@ -60,3 +58,6 @@ def cmd_diff(args) -> int:
     else:
         sys.stdout.write(diff_text(diff, ascii_only=args.ascii))
     return 1 if args.fail_on_result_change and diff.results_changed else 0
+
+
+COMMANDS = {"diff": cmd_diff}

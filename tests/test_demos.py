@@ -14,6 +14,7 @@ import sympy
 from nodeterm.cli import main
 from nodeterm.engine import build_system, load_circuit
 from nodeterm.engine.symbols import s
+from nodeterm.engine.solving.solve import solve_system
 
 DEMOS = sorted((pathlib.Path(__file__).resolve().parents[1] / "circuits").glob("*.toml"))
 
@@ -21,7 +22,7 @@ DEMOS = sorted((pathlib.Path(__file__).resolve().parents[1] / "circuits").glob("
 @pytest.mark.parametrize("path", DEMOS, ids=lambda p: p.stem)
 def test_demo_solves_and_satisfies_kcl(path):
     system = build_system(load_circuit(path)).substitute_known()
-    sol = system.solve()
+    sol = solve_system(system)
     circuit = system.circuit
     net = {n: sympy.Integer(0) for n in circuit.nodes}
     for p in circuit.parts:

@@ -23,8 +23,9 @@ import pytest
 import sympy
 
 from nodeterm.cli import main
-from nodeterm.engine import build_system, load_circuit
-from nodeterm.engine.audit.verdicts import audit_claims
+from nodeterm.engine import load_circuit
+from nodeterm.engine.study import Study
+from nodeterm.engine.values import ValueChoice
 from nodeterm.engine.circuit.expr import parse_expression
 from nodeterm.present.export import BENCH_NOTE, FORMATS, ExportError, render, write_atomic
 
@@ -53,11 +54,9 @@ wrong = "(V_inv - V_in)/R1 = 0"
 
 
 def prepared(path, known: bool = False):
-    system = build_system(load_circuit(str(path)))
-    if known:
-        system = system.substitute_known()
-    solution = system.solve()
-    return system, solution, audit_claims(system, solution=solution)
+    """The records ``nodeterm export`` formats (Study, as the CLI builds it)."""
+    study = Study(load_circuit(str(path)), ValueChoice.from_options(known=known))
+    return study.records(("system", "matrix", "solution", "warnings", "verdicts", "transfer", "limits"))
 
 
 def sym(name: str):
@@ -67,8 +66,9 @@ def sym(name: str):
 # ----------------------------------------------------------------------------- JSON
 @pytest.mark.parametrize("path", CASES, ids=lambda p: p.name)
 def test_json_round_trip(path):
-    system, solution, verdicts = prepared(path)
-    data = json.loads(render(system, solution, verdicts, "json"))
+    records = prepared(path)
+    system, solution, verdicts = records.system, records.solution, list(records.verdicts)
+    data = json.loads(render(records, "json"))
     for node, text in data["node_voltages"].items():
         assert sympy.simplify(parse_expression(text, sym) - solution.node_voltages[node]) == 0, node
     for pid, text in data["currents"].items():
@@ -94,18 +94,19 @@ def test_ascii_is_seven_bit(tmp_path):
     path = tmp_path / "unicode.toml"
     path.write_text(UNICODE_CIRCUIT, encoding="utf-8")
     for p in [path] + DEMOS:
-        system, solution, verdicts = prepared(p, known=True)
-        text = render(system, solution, verdicts, "ascii")
+        records = prepared(p, known=True)
+        system, solution, verdicts = records.system, records.solution, list(records.verdicts)
+        text = render(records, "ascii")
         bad = [ch for ch in text if ord(ch) > 127]
         assert not bad, (p.name, bad[:5])
         assert BENCH_NOTE in text
-    assert "Preampli - 4.7 kohm +/-1 % ~ uA" in render(*prepared(path), "ascii")
+    assert "Preampli - 4.7 kohm +/-1 % ~ uA" in render(prepared(path), "ascii")
 
 
 def test_text_keeps_unicode_and_lists_verdicts(tmp_path):
     path = tmp_path / "unicode.toml"
     path.write_text(UNICODE_CIRCUIT, encoding="utf-8")
-    text = render(*prepared(path), "text")
+    text = render(prepared(path), "text")
     assert "Préampli" in text and "Audit of the hand derivation" in text
     assert "missing the term from Rb" in text
 
@@ -130,8 +131,9 @@ def _cells(line: str) -> int:
 
 @pytest.mark.parametrize("path", CASES, ids=lambda p: p.name)
 def test_markdown_tables_are_well_formed(path):
-    system, solution, verdicts = prepared(path)
-    text = render(system, solution, verdicts, "markdown")
+    records = prepared(path)
+    system, solution, verdicts = records.system, records.solution, list(records.verdicts)
+    text = render(records, "markdown")
     tables = _tables(text)
     assert len(tables) >= 4  # matrix, node voltages, currents, verdicts
     for rows in tables:
@@ -170,8 +172,9 @@ def _balanced(tex: str) -> None:
 
 @pytest.mark.parametrize("path", CASES, ids=lambda p: p.name)
 def test_latex_is_balanced(path):
-    system, solution, verdicts = prepared(path)
-    tex = render(system, solution, verdicts, "latex")
+    records = prepared(path)
+    system, solution, verdicts = records.system, records.solution, list(records.verdicts)
+    tex = render(records, "latex")
     _balanced(tex)
     assert tex.count(r"\begin{align*}") >= 4
     assert all(ord(ch) < 128 for ch in tex)
@@ -183,24 +186,27 @@ TEX = shutil.which("pdflatex") or shutil.which("lualatex") or shutil.which("xela
 
 @pytest.mark.skipif(TEX is None, reason="no TeX engine on PATH")
 def test_latex_compiles(tmp_path):  # pragma: no cover - needs TeX
-    system, solution, verdicts = prepared(AUDIT / "sallen_key.toml")
-    (tmp_path / "r.tex").write_text(render(system, solution, verdicts, "latex"))
+    records = prepared(AUDIT / "sallen_key.toml")
+    system, solution, verdicts = records.system, records.solution, list(records.verdicts)
+    (tmp_path / "r.tex").write_text(render(records, "latex"))
     done = subprocess.run([TEX, "-interaction=nonstopmode", "-halt-on-error", "r.tex"], cwd=tmp_path,
                           capture_output=True, text=True, timeout=120)
     assert done.returncode == 0, done.stdout[-2000:]
 
 
 def test_every_format_carries_the_bench_note():
-    system, solution, verdicts = prepared(AUDIT / "inverting.toml")
+    records = prepared(AUDIT / "inverting.toml")
+    system, solution, verdicts = records.system, records.solution, list(records.verdicts)
     for fmt in FORMATS:
-        text = render(system, solution, verdicts, fmt)
+        text = render(records, fmt)
         assert "confirm them on the bench" in text, fmt
 
 
 def test_unknown_format():
-    system, solution, _ = prepared(AUDIT / "inverting.toml")
+    records = prepared(AUDIT / "inverting.toml")
+    system, solution, verdicts = records.system, records.solution, list(records.verdicts)
     with pytest.raises(ExportError, match="unknown export format"):
-        render(system, solution, [], "pdf")
+        render(records, "pdf")
 
 
 # ----------------------------------------------------------------------------- atomic writes

@@ -10,7 +10,7 @@ import random
 
 import sympy
 
-from nodeterm.engine.solving.solve import FACTOR_LIMIT, factor_poly, tidy_fraction
+from nodeterm.engine.solving.forms import FACTOR_LIMIT, factor_poly, tidy_fraction
 from nodeterm.engine.symbols import s
 
 SYMS = sympy.symbols("R1 R2 R3 Rf Rg C1 C2 A")

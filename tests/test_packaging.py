@@ -15,7 +15,7 @@ def test_every_subpackage_is_listed_for_non_editable_installs():
 
 
 def test_demo_circuits_are_package_data():
-    from nodeterm.cli import demo_path
+    from nodeterm.demos import demo_path
     demo = pathlib.Path(demo_path())
     assert demo.is_file()
     names = {p.name for p in demo.parent.glob("*.toml")}

@@ -17,6 +17,7 @@ import sympy
 
 from nodeterm.engine import SolveError, build_system, load_circuit, parse_circuit
 from nodeterm.engine.solving import fastsolve
+from nodeterm.engine.solving.solve import solve_system
 
 sys.path.insert(0, str(Path(__file__).parent))
 from test_fast_paths import FILES, assert_same, ladder, slow_solve  # noqa: E402
@@ -46,7 +47,7 @@ def test_results_past_the_limit_are_refused_with_what_to_do(monkeypatch):
     # 6 sections: F(13) = 233 terms in the shared denominator, a few thousand in all the results
     monkeypatch.setattr(fastsolve, "TERM_LIMIT", 2000)
     with pytest.raises(fastsolve.ResultTooLarge) as err:
-        build_system(parse_circuit(ladder(6))).solve()
+        solve_system(build_system(parse_circuit(ladder(6))))
     assert isinstance(err.value, SolveError)  # an InputError: exit status 2 on the command line
     text = str(err.value)
     assert "the exact answer is too large" in text and "the limit is 2,000" in text
@@ -57,12 +58,12 @@ def test_results_past_the_limit_are_refused_with_what_to_do(monkeypatch):
 def test_an_elimination_past_the_limit_stops_inside_the_elimination(monkeypatch):
     monkeypatch.setattr(fastsolve, "TERM_LIMIT", 40)
     with pytest.raises(fastsolve.ResultTooLarge, match="the elimination would hold over"):
-        build_system(parse_circuit(ladder(6))).solve()
+        solve_system(build_system(parse_circuit(ladder(6))))
 
 
 def test_the_twelve_section_ladder_is_not_refused():
     # 3.0 million terms in all its results, under the 5 million limit; its denominator F(25)
-    solution = build_system(parse_circuit(ladder(12))).solve()
+    solution = solve_system(build_system(parse_circuit(ladder(12))))
     num, den = solution.node_voltages["n12"].fraction
     assert len(den) == sympy.fibonacci(25) == 75025
 

@@ -30,36 +30,35 @@ class ExportError(InputError):
     """The export could not be written (the message says why; nothing was left behind)."""
 
 
-def render(system, solution, verdicts=None, fmt: str = "text") -> str:
-    """The report in format ``fmt``.
+def render(records, fmt: str = "text") -> str:
+    """The report of a study's records in format ``fmt``.
 
     Args:
-        system: the recorded system (with any substitutions).
-        solution: ``system.solve()``.
-        verdicts: audit verdicts (``audit_claims``), or None/[] for none.
+        records: :class:`nodeterm.engine.study.Records` with system, matrix, solution, warnings and
+            (optionally) verdicts, transfer and limits.
         fmt: one of :data:`FORMATS`.
 
     Raises:
         ExportError: for an unknown format.
     """
-    verdicts = list(verdicts or [])
+    verdicts = list(records.verdicts or [])
     if fmt in ("text", "ascii"):
         from nodeterm.present.text import report, to_ascii, verdicts_text
         ascii_only = fmt == "ascii"
-        out = report(system, solution, ascii_only=ascii_only)
+        out = report(records, ascii_only=ascii_only)
         if verdicts:
-            out += "\nAudit of the hand derivation\n" + verdicts_text(verdicts, system.circuit.path)
+            out += "\nAudit of the hand derivation\n" + verdicts_text(verdicts, records.circuit.path)
         out += "\nNote: " + BENCH_NOTE + "\n"
         return to_ascii(out) if ascii_only else out
     if fmt == "markdown":
         from nodeterm.present.markdown import render_markdown
-        return render_markdown(system, solution, verdicts, note=BENCH_NOTE)
+        return render_markdown(records, note=BENCH_NOTE)
     if fmt == "latex":
         from nodeterm.present.latex import render_latex
-        return render_latex(system, solution, verdicts, note=BENCH_NOTE)
+        return render_latex(records, note=BENCH_NOTE)
     if fmt == "json":
         from nodeterm.present.jsonout import export_dict
-        return json.dumps(export_dict(system, solution, verdicts, note=BENCH_NOTE), indent=2,
+        return json.dumps(export_dict(records, note=BENCH_NOTE), indent=2,
                           ensure_ascii=False) + "\n"
     raise ExportError(f"unknown export format {fmt!r}", hint="formats: " + ", ".join(FORMATS))
 

@@ -1,6 +1,8 @@
 """The JSON contract of ``nodeterm solve --json`` (documented in docs/json-contract.md).
 
-Expressions are SymPy-syntax strings (``**`` powers). Pure data: no Textual.
+Expressions are SymPy-syntax strings (``**`` powers). A pure formatter of a study's
+:class:`~nodeterm.engine.study.Records`: it computes nothing and decides nothing about which
+analyses run (the command picks the records). No Textual.
 """
 
 from __future__ import annotations
@@ -9,7 +11,9 @@ import json
 
 import sympy
 
+from nodeterm.engine.analysis.cautions import LINEAR_NOTE
 from nodeterm.engine.symbols import as_expr
+from nodeterm.present.analysis import limits_dict, transfer_dict
 from nodeterm.present.format import expr_text
 
 
@@ -18,10 +22,15 @@ def _eq(e) -> dict:
             "parts": list(e.parts)}
 
 
-def solution_dict(system, solution=None, numeric: bool = False) -> dict:
-    """The solve result as plain data."""
+def solution_dict(records, numeric: bool = False) -> dict:
+    """The records of a study as plain data (the ``solve --json`` contract).
+
+    Formats only what ``records`` holds: ``transfer`` and ``limits`` appear when the caller asked for
+    them; a record left out for its time budget is named in ``omitted``.
+    """
+    system, solution = records.system, records.solution
     c = system.circuit
-    m = system.matrix()
+    m = records.matrix if records.matrix is not None else system.matrix()
     fmt = (lambda e: _num(e)) if numeric else expr_text
     out = {
         "title": c.title,
@@ -34,30 +43,21 @@ def solution_dict(system, solution=None, numeric: bool = False) -> dict:
                    "A": [[expr_text(m.A[i, j]) for j in range(m.A.shape[1])] for i in range(m.A.shape[0])],
                    "b": [expr_text(m.b[i, 0]) for i in range(m.b.shape[0])]},
         "values": {n: expr_text(v) for n, v in system.values.items()},
-        "warnings": [w.as_dict() for w in system.warnings],
+        "warnings": [w.as_dict() for w in records.warnings],
     }
     if solution is not None:
         out["node_voltages"] = {n: fmt(v) for n, v in solution.node_voltages.items()}
         out["currents"] = {n: fmt(v) for n, v in solution.currents.items()}
         out["find"] = {n: fmt(v) for n, v in solution.find.items()}
-        out.update(analysis_dict(system, solution))
+    if records.transfer is not None:
+        out["transfer"] = {n: transfer_dict(tf) for n, tf in records.transfer.items()}
+    if records.limits is not None:
+        out["limits"] = limits_dict(list(records.limits))
+    if solution is not None:
+        out["note"] = LINEAR_NOTE
+    if records.omitted:
+        out["omitted"] = [{"record": o.record, "reason": o.reason} for o in records.omitted]
     return out
-
-
-def analysis_dict(system, solution) -> dict:
-    """The additive analysis keys: transfer functions, op-amp limits, cautions, the linear-model note."""
-    from nodeterm.engine.analysis.cautions import LINEAR_NOTE, merge, node_cautions, source_cautions
-    from nodeterm.engine.analysis.limits import check_limits, limit_warnings, limited_opamps
-    from nodeterm.engine.analysis.transfer import transfer_functions
-    from nodeterm.present.analysis import limits_dict, transfer_dict
-    tfs = transfer_functions(solution, system.circuit)
-    checks = check_limits(system, solution) if limited_opamps(system.circuit) else []
-    warnings = merge(system.warnings, source_cautions(system.circuit, system.values),
-                     node_cautions(solution.node_voltages), limit_warnings(checks))
-    return {"transfer": {n: transfer_dict(tf) for n, tf in tfs.items()},
-            "limits": limits_dict(checks),
-            "warnings": [w.as_dict() for w in warnings],
-            "note": LINEAR_NOTE}
 
 
 def _num(e) -> str:
@@ -67,8 +67,8 @@ def _num(e) -> str:
     return expr_text(e)
 
 
-def to_json(system, solution=None, numeric: bool = False) -> str:
-    return json.dumps(solution_dict(system, solution, numeric), indent=2, ensure_ascii=False)
+def to_json(records, numeric: bool = False) -> str:
+    return json.dumps(solution_dict(records, numeric), indent=2, ensure_ascii=False)
 
 
 # --- steps and audit verdicts (nodeterm check --json, nodeterm export --to json) -----------------
@@ -105,18 +105,20 @@ def verdict_dict(v) -> dict:
             "details": _plain(v.details)}
 
 
-def check_dict(system, verdicts) -> dict:
+def check_dict(records) -> dict:
     """What ``nodeterm check --json`` prints."""
     from nodeterm.engine.audit.verdicts import exit_status, summary
-    return {"file": system.circuit.path, "title": system.circuit.title, "summary": summary(verdicts),
-            "exit_status": exit_status(verdicts), "verdicts": [verdict_dict(v) for v in verdicts]}
+    verdicts = list(records.verdicts or ())
+    return {"file": records.circuit.path, "title": records.circuit.title, "summary": summary(verdicts),
+            "exit_status": exit_status(verdicts), "verdicts": [verdict_dict(v) for v in verdicts],
+            "warnings": [w.as_dict() for w in records.warnings]}
 
 
-def export_dict(system, solution, verdicts, note: str = "") -> dict:
+def export_dict(records, note: str = "") -> dict:
     """The ``solve --json`` contract plus ``steps``, ``verdicts`` and the bench ``note``."""
-    out = solution_dict(system, solution)
-    out["steps"] = steps_list(system)
-    out["verdicts"] = [verdict_dict(v) for v in verdicts or []]
+    out = solution_dict(records)
+    out["steps"] = steps_list(records.system)
+    out["verdicts"] = [verdict_dict(v) for v in records.verdicts or []]
     if note:
         out["note"] = note
     return out

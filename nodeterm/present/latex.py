@@ -44,8 +44,9 @@ def _align(rows: list[tuple[str, str, str]]) -> list[str]:
     return out
 
 
-def render_latex(system, solution, verdicts=None, note: str = "") -> str:
-    """The whole report as a LaTeX document."""
+def render_latex(records, note: str = "") -> str:
+    """The whole report of a study's records as a LaTeX document."""
+    system, solution, verdicts = records.system, records.solution, records.verdicts
     c = system.circuit
     cols = max(10, len(system.reduced_unknowns) + 2)  # amsmath matrices allow 10 columns by default
     out = [r"\documentclass[10pt]{article}", r"\usepackage{amsmath}", r"\allowdisplaybreaks",
@@ -53,15 +54,15 @@ def render_latex(system, solution, verdicts=None, note: str = "") -> str:
            rf"\title{{{escape(c.title or 'Circuit')}}}", r"\date{}", r"\begin{document}", r"\maketitle", ""]
     if note:
         out += [rf"\noindent\textbf{{Note.}} {escape(note)}", ""]
-    if system.warnings:
+    if records.warnings:
         out.append(r"\begin{itemize}")
-        out += [rf"  \item Warning ({escape(w.code)}): {escape(w.message)}" for w in system.warnings]
+        out += [rf"  \item Warning ({escape(w.code)}): {escape(w.message)}" for w in records.warnings]
         out += [r"\end{itemize}", ""]
     for i, step in enumerate(system.steps, start=1):
         out += [rf"\section*{{Step {i}. {escape(step.title)}}}", escape(step.text), ""]
         out += _align([(tex(e.lhs), tex(e.rhs), e.label) for e in step.equations])
         out.append("")
-    m = system.matrix()
+    m = records.matrix
     out += [r"\section*{Matrix form $A x = b$}"]
     if m.rows:
         x = sympy.Matrix([sympy.Symbol(col) for col in m.cols])

@@ -31,17 +31,18 @@ def table(head: list[str], rows: list[list[str]]) -> list[str]:
     return out
 
 
-def render_markdown(system, solution, verdicts=None, note: str = "") -> str:
-    """The whole report as Markdown."""
+def render_markdown(records, note: str = "") -> str:
+    """The whole report of a study's records as Markdown."""
+    system, solution, verdicts = records.system, records.solution, records.verdicts
     c = system.circuit
     out = [f"# {c.title or 'Circuit'}", ""]
     if c.path:
         out += [f"Circuit file: {_code(c.path)}", ""]
     if note:
         out += [f"> **Note:** {note}", ""]
-    for w in system.warnings:
+    for w in records.warnings:
         out.append(f"- **warning** ({w.code}): {w.message}")
-    if system.warnings:
+    if records.warnings:
         out.append("")
     for i, step in enumerate(system.steps, start=1):
         out += [f"## Step {i}. {step.title}", "", step.text, ""]
@@ -52,7 +53,7 @@ def render_markdown(system, solution, verdicts=None, note: str = "") -> str:
                     out.append(f"  - {t.part}: {_code(expr_text(t.expr, hand=True))}")
         if step.equations:
             out.append("")
-    m = system.matrix()
+    m = records.matrix
     out += ["## Matrix form A x = b", ""]
     if m.rows:
         rows = [[m.rows[i]] + [_code(expr_text(m.A[i, j])) for j in range(m.A.shape[1])]

@@ -14,11 +14,15 @@ from nodeterm.engine.solving.numeric import number_text
 from nodeterm.present.format import eng
 
 
-def numeric_dict(circuit, solution, system=None) -> dict:
-    """The numeric solve result as plain data (the ``solve --json`` fields plus ``numeric``)."""
-    if system is not None:
+def numeric_dict(circuit, solution, records=None) -> dict:
+    """The numeric solve result as plain data (the ``solve --json`` fields plus ``numeric``).
+
+    ``records`` (system, matrix, warnings of the study) give the equations and matrix; None for a
+    circuit too large to list them."""
+    system = records
+    if records is not None:
         from nodeterm.present.jsonout import solution_dict
-        out = solution_dict(system)
+        out = solution_dict(records)
     else:
         out = {
             "title": circuit.title, "reference": circuit.reference,
@@ -36,8 +40,8 @@ def numeric_dict(circuit, solution, system=None) -> dict:
     return out
 
 
-def numeric_json(circuit, solution, system=None) -> str:
-    return json.dumps(numeric_dict(circuit, solution, system), indent=2, ensure_ascii=False)
+def numeric_json(circuit, solution, records=None) -> str:
+    return json.dumps(numeric_dict(circuit, solution, records), indent=2, ensure_ascii=False)
 
 
 def _value(v, unit: str, ascii_only: bool) -> str:

@@ -53,19 +53,22 @@ def solution_lines(system, solution, ascii_only: bool = False) -> list[str]:
     return out
 
 
-def report(system, solution, ascii_only: bool = False) -> str:
-    """The whole plain-text report: steps, equations, matrix, results."""
+def warning_lines(warnings) -> list[str]:
+    """One ``warning:`` line per warning or caution, and a blank line after them."""
+    return [f"warning: {w.message}" for w in warnings] + ([""] if warnings else [])
+
+
+def report(records, ascii_only: bool = False) -> str:
+    """The whole plain-text report of a study's records: warnings, steps, equations, matrix, results."""
+    system, solution = records.system, records.solution
     c = system.circuit
     out = []
     if c.title:
         out += [c.title, "=" * len(c.title), ""]
-    for w in system.warnings:
-        out.append(f"warning: {w.message}")
-    if system.warnings:
-        out.append("")
+    out += warning_lines(records.warnings)
     out += steps_lines(system)
     out.append("Matrix form A x = b")
-    out += ["  " + ln for ln in matrix_lines(system.matrix(), ascii_only)]
+    out += ["  " + ln for ln in matrix_lines(records.matrix, ascii_only)]
     out.append("")
     out += solution_lines(system, solution, ascii_only)
     text = "\n".join(out) + "\n"
@@ -108,10 +111,10 @@ def verdict_lines(verdicts, path: str | None = None) -> list[str]:
     return out
 
 
-def verdicts_text(verdicts, path: str | None = None, ascii_only: bool = False) -> str:
-    """The audit section of a report, ending with the one-line summary."""
+def verdicts_text(verdicts, path: str | None = None, ascii_only: bool = False, warnings=()) -> str:
+    """The audit section of a report, ending with the one-line summary (warnings first, when given)."""
     from nodeterm.engine.audit.verdicts import summary
-    lines = verdict_lines(verdicts, path) + [summary(verdicts)]
+    lines = warning_lines(warnings) + verdict_lines(verdicts, path) + [summary(verdicts)]
     return to_ascii("\n".join(lines) + "\n") if ascii_only else "\n".join(lines) + "\n"
 
 

@@ -125,7 +125,7 @@ class Workbench(App):
     def open_path(self, path: str | None) -> None:
         """Open a circuit file (the bundled demo when ``path`` is None)."""
         if path is None:
-            from nodeterm.cli import demo_path
+            from nodeterm.demos import demo_path
             path = demo_path()
         try:
             self.session.open(path)
@@ -564,7 +564,11 @@ class Workbench(App):
         """The equation set of what is on screen in format ``fmt`` (with results when solved)."""
         system = self.system
         if self.solution is not None:
-            return render(system, self.solution, self.verdicts, fmt)
+            from nodeterm.engine.study import Records
+            records = Records(system.circuit, self.session.choice if hasattr(self.session, "choice") else None,
+                              system=system, matrix=self.matrix_form or system.matrix(), solution=self.solution,
+                              warnings=tuple(system.warnings), verdicts=tuple(self.verdicts or ()))
+            return render(records, fmt)
         if fmt not in ("text", "ascii"):
             raise InputError(f"the {fmt} export needs the results, and the solve has not finished",
                              hint="wait for it (or press s to solve again), then export")

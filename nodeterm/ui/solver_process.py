@@ -52,7 +52,8 @@ def solve_and_print(system, two_d: bool, width: int, send: Callable[[str, object
     from nodeterm.ui.results_pane import results_text
     matrix = system.matrix()
     send("matrix", Solved(matrix, matrix_text(matrix)))
-    solution = system.solve()
+    from nodeterm.engine.solving.solve import solve_system
+    solution = solve_system(system)
     try:
         printed = results_text(system, solution, two_d, width)
     except Exception as exc:  # noqa: BLE001 - the solution is still good for the other panes

@@ -12,7 +12,7 @@ import sys
 
 import pytest
 
-from nodeterm.cli import demo_path
+from nodeterm.demos import demo_path
 
 SOIL = demo_path("soil_moisture_probe.toml")
 ARGS = [sys.executable, "-m", "nodeterm", "tolerance", SOIL, "--samples", "60000"]

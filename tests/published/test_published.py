@@ -35,6 +35,7 @@ from sympy import Rational
 
 from nodeterm.engine import build_system, load_circuit
 from nodeterm.engine.symbols import param, s
+from nodeterm.engine.solving.solve import solve_system
 
 HERE = Path(__file__).parent
 CASES = sorted(p.name for p in HERE.glob("*.toml"))
@@ -55,7 +56,7 @@ def solve_case(name: str, values: dict[str, str] | None = None):
     system = build_system(circuit)
     if values:
         system = system.substitute(values)
-    return circuit, system, system.solve()
+    return circuit, system, solve_system(system)
 
 
 def assert_same(got, expected, what: str) -> None:

@@ -7,7 +7,7 @@ from pathlib import Path
 
 import pytest
 
-from nodeterm.cli import demo_path
+from nodeterm.demos import demo_path
 
 KILN = Path(demo_path("kiln_preamp.toml"))
 

@@ -22,7 +22,7 @@ import time
 import numpy as np
 import pytest
 
-from nodeterm.cli import demo_path
+from nodeterm.demos import demo_path
 from nodeterm.ui.app import Workbench
 from nodeterm.ui.dialogs import ConfirmScreen, PathScreen
 from wb_helpers import settle, text_of

@@ -313,7 +313,7 @@ async def test_analysis_pane_shows_transfer_function():
     """Unity-gain Sallen-Key low-pass with equal R and Cf = 2*Cg: w0 = 1/(R*sqrt(Cf*Cg)) and
     Q = sqrt(Cf/Cg)/2 = 1/sqrt(2), the Butterworth response (common practice, no source; the
     standard Sallen-Key design equations)."""
-    from nodeterm.cli import demo_path
+    from nodeterm.demos import demo_path
     app = Workbench(demo_path("vibration_lowpass.toml"), poll=False)
     async with app.run_test(size=SIZE) as pilot:
         await settle(pilot, app)

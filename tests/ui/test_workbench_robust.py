@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import threading
 
-from nodeterm.engine.equations.system import System
 from nodeterm.ui import solver_process
 from nodeterm.ui.app import Workbench
 from nodeterm.ui.steps_pane import StepsPane
@@ -36,12 +35,13 @@ async def test_failing_action_is_reported_logged_and_state_kept(kiln, cache_home
 
 async def test_long_solve_shows_busy_and_can_be_cancelled(kiln, monkeypatch):
     release = threading.Event()
-    real = System.solve
+    from nodeterm.engine.solving import solve as solve_module
+    real = solve_module.solve_system
 
-    def slow(self):
+    def slow(system):
         release.wait(10)
-        return real(self)
-    monkeypatch.setattr(System, "solve", slow)
+        return real(system)
+    monkeypatch.setattr(solve_module, "solve_system", slow)
     monkeypatch.setattr(solver_process, "IN_CHILD", False)  # the patched solve exists in this process only
     app = Workbench(str(kiln), poll=False)
     try:
@@ -85,11 +85,11 @@ async def test_quit_during_a_long_solve_does_not_wait_for_it(kiln, monkeypatch):
     release = threading.Event()
     names = []
 
-    def stuck(self):
+    def stuck(system):
         names.append((threading.current_thread().name, threading.current_thread().daemon))
         release.wait(30)
         raise RuntimeError("abandoned")
-    monkeypatch.setattr(System, "solve", stuck)
+    monkeypatch.setattr("nodeterm.engine.solving.solve.solve_system", stuck)
     monkeypatch.setattr(solver_process, "IN_CHILD", False)  # the patched solve exists in this process only
     app = Workbench(str(kiln), poll=False)
     try:

@@ -14,6 +14,7 @@ import sympy
 from nodeterm.engine.symbols import as_expr
 from nodeterm.engine.errors import Warning
 from nodeterm.engine.symbols import param
+from nodeterm.engine.values import numeric_values
 
 ELV_AC_RMS = 50
 """Extra-low-voltage limit for AC, volts rms (IEC 61140, from memory)."""
@@ -64,8 +65,7 @@ def source_cautions(circuit, values: dict | None = None) -> list[Warning]:
         circuit: the circuit.
         values: parameter name -> value overriding the file (e.g. from ``--set``).
     """
-    from nodeterm.engine.analysis.realopamp import resolved_values
-    subs = {param(n): v for n, v in resolved_values(circuit, values).items()}
+    subs = {param(n): v for n, v in numeric_values(circuit, values).items()}
     out = []
     for p in circuit.parts:
         if p.kind != "voltage_source":
@@ -109,11 +109,6 @@ def model_warnings(circuit) -> list[Warning]:
                                    f"op-amp {p.id}: {' and '.join(unused)} only act in the real model; "
                                    "give gain and/or gbw to use them", p.id))
     return out
-
-
-def circuit_warnings(circuit) -> list[Warning]:
-    """Every caution that the file alone shows (called by ``build_system``)."""
-    return source_cautions(circuit) + model_warnings(circuit)
 
 
 def merge(*groups) -> list[Warning]:

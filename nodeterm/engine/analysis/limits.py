@@ -22,6 +22,7 @@ from nodeterm.engine.errors import InputError, Warning
 from nodeterm.engine.symbols import param, s
 from nodeterm.engine.analysis.realopamp import prepared
 from nodeterm.engine.analysis.transfer import frequency_response, transfer_function
+from nodeterm.engine.solving.solve import solve_system
 
 
 @dataclass(frozen=True)
@@ -156,14 +157,14 @@ def compliance_range(circuit, values: dict | None = None, load: str | None = Non
     if load is not None and load not in circuit.parameters:
         raise InputError(f"--load {load!r} is not a parameter of the circuit",
                          hint="parameters: " + ", ".join(circuit.parameters), file=circuit.path)
-    from nodeterm.engine.analysis.realopamp import resolved_values
+    from nodeterm.engine.values import numeric_values
     raw = {n: p.value for n, p in circuit.parameters.items() if p.value is not None and n != load}
     circuit_wo_load = replace(circuit, parameters={n: (replace(p, value=None) if n == load else p)
                                                    for n, p in circuit.parameters.items()})
-    known = resolved_values(circuit_wo_load, {n: v for n, v in values.items() if n != load}) if raw or values else {}
+    known = numeric_values(circuit_wo_load, {n: v for n, v in values.items() if n != load}) if raw or values else {}
     from nodeterm.engine.equations.system import build_system
     system = build_system(circuit).substitute(known) if known else build_system(circuit)
-    sol = system.solve()
+    sol = solve_system(system)
     opamps = limited_opamps(circuit)
     leftover = set()
     for p in opamps:

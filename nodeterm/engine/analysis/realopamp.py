@@ -15,7 +15,9 @@ import sympy
 
 from nodeterm.engine.symbols import as_expr
 from nodeterm.engine.equations.system import System, build_system
-from nodeterm.engine.symbols import param, s
+from nodeterm.engine.symbols import s
+from nodeterm.engine.values import numeric_values
+from nodeterm.engine.solving.solve import solve_system
 
 if TYPE_CHECKING:
     from nodeterm.engine.analysis.transfer import Bandwidth
@@ -105,46 +107,10 @@ def _bandwidth(expr: sympy.Expr) -> Bandwidth | None:
     return bandwidth_3db(transfer_function(expr))
 
 
-def _value(circuit, v) -> sympy.Expr:
-    """A value given by a caller: text goes through our expression parser, never sympify."""
-    if isinstance(v, str):
-        from nodeterm.engine.circuit.expr import parse_expression
-        params = circuit.parameters
-        return parse_expression(v, lambda n: param(n) if n in params else None)
-    return as_expr(v)
-
-
-def resolved_values(circuit, values: dict | None = None) -> dict[str, sympy.Expr]:
-    """Parameter values from the file with ``values`` overriding them, each resolved through the others.
-
-    An override reaches the parameters written in terms of it (``Cf = "2*Cg"`` follows ``Cg``).
-
-    >>> from nodeterm.engine.circuit.loader import parse_circuit
-    >>> c = parse_circuit('''
-    ... [parameters]
-    ... Cg = "10n"
-    ... Cf = "2*Cg"
-    ... [parts]
-    ... C1 = { kind = "capacitor", nodes = ["a", "gnd"], value = "Cf" }
-    ... ''')
-    >>> resolved_values(c, {"Cg": sympy.Rational(1, 10**7)})["Cf"]
-    1/5000000
-    """
-    raw = {n: p.value for n, p in circuit.parameters.items() if p.value is not None}
-    raw.update({n: _value(circuit, v) for n, v in (values or {}).items()})
-    subs = {param(n): v for n, v in raw.items()}
-    for _ in range(len(subs) + 1):  # the loader rejects cycles, so this settles
-        new = {k: v.xreplace(subs) for k, v in subs.items()}
-        if new == subs:
-            break
-        subs = new
-    return {str(k): v for k, v in subs.items()}
-
-
 def prepared(circuit, values: dict | None = None) -> System:
     """``build_system`` with the file's values, overridden by ``values``, substituted in one step."""
     system = build_system(circuit)
-    known = resolved_values(circuit, values)
+    known = numeric_values(circuit, values)
     return system.substitute(known) if known else system
 
 
@@ -159,7 +125,7 @@ def compare_models(circuit, values: dict | None = None, frequency: float | None 
     f = DEFAULT_FREQUENCY if frequency is None else float(frequency)
     real_sys = prepared(circuit, values)
     ideal_sys = prepared(ideal_variant(circuit), values)
-    real_sol, ideal_sol = real_sys.solve(), ideal_sys.solve()
+    real_sol, ideal_sol = solve_system(real_sys), solve_system(ideal_sys)
     rows = []
     for name in circuit.find:
         hi, hr = as_expr(ideal_sol.find[name]), as_expr(real_sol.find[name])

@@ -18,7 +18,9 @@ import sympy
 from nodeterm.engine.symbols import as_expr
 from nodeterm.engine.equations.system import build_system
 from nodeterm.engine.symbols import param, s
+from nodeterm.engine.values import nominal
 from nodeterm.engine.analysis.transfer import _simplify_positive, transfer_function
+from nodeterm.engine.solving.solve import solve_system
 
 
 def normalized_sensitivity(f: sympy.Expr, x: sympy.Symbol) -> sympy.Expr:
@@ -40,7 +42,7 @@ def scalar_quantities(circuit, solution=None) -> dict[str, sympy.Expr]:
     further sections) and ``F.corner`` for a transfer function.
     """
     if solution is None:
-        solution = build_system(circuit).solve()
+        solution = solve_system(build_system(circuit))
     out: dict[str, sympy.Expr] = {}
     for name in circuit.find:
         value = as_expr(solution.find[name])
@@ -79,8 +81,7 @@ class Sensitivity:
 
 def nominal_values(circuit, values: dict | None = None) -> dict[sympy.Symbol, sympy.Expr]:
     """Parameter symbol -> resolved value (file values, then ``values``), numbers only."""
-    from nodeterm.engine.analysis.realopamp import resolved_values
-    return {param(n): v for n, v in resolved_values(circuit, values).items() if v.is_number}
+    return nominal(circuit, values)
 
 
 def sensitivities(quantities: dict[str, sympy.Expr], nominal: dict) -> list[Sensitivity]:

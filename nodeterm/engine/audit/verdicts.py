@@ -69,8 +69,10 @@ from nodeterm.engine.audit.closest_equation import HELPER_KINDS, PRIMARY_KINDS, 
 from nodeterm.engine.circuit.expr import ExpressionError, parse_expression
 from nodeterm.engine.circuit.loader import quantity_resolver
 from nodeterm.engine.audit.result_causes import _NUMERIC_POINTS, _example, _is_zero, _result_cause
+from nodeterm.engine.equations.procedure import _Context
 from nodeterm.engine.solving.solve import solve_linear
 from nodeterm.engine.symbols import I, V, param
+from nodeterm.engine.solving.solve import solve_system
 
 HOLDS, FAILS, ERROR = "holds", "fails", "error"
 
@@ -125,10 +127,9 @@ class Auditor:
     """
 
     def __init__(self, system, solution=None) -> None:
-        from nodeterm.engine.equations.system import _Context  # the context the equations were written with
         self.system = system
         c = self.circuit = system.circuit
-        self.solution = solution if solution is not None else system.solve()
+        self.solution = solution if solution is not None else solve_system(system)
         self.pvals = {param(n): v for n, v in system.values.items()}
         self._names: list[str] = []
         base = quantity_resolver(c.parameters, c.nodes, c.part_ids)

@@ -15,10 +15,11 @@
 5. substitution of the known voltages and of the input equalities.
 
 Each step is a function of :mod:`.procedure`; the equations and steps it
-records are the dataclasses of :mod:`.equation` (importable from here too). The
+records are the dataclasses of :mod:`.equation`. The
 result is an immutable :class:`System`. ``System.substitute`` records one more
-step and returns a new System; ``System.solve`` (in :mod:`.solve`) is a separate
-call.
+step and returns a new System. Solving is a separate stage
+(:func:`nodeterm.engine.solving.solve.solve_system`), called by the study
+(:mod:`nodeterm.engine.study`).
 """
 
 from __future__ import annotations
@@ -27,15 +28,13 @@ from dataclasses import dataclass, replace
 
 import sympy
 
-from nodeterm.engine.symbols import as_expr
-from nodeterm.engine.equations.equation import KCL_KINDS, OPAMP_KINDS, Equation, Step, Term  # noqa: F401 - imported from here too
-from nodeterm.engine.errors import InputError, Warning
-from nodeterm.engine.circuit.expr import ExpressionError, parse_expression
 from nodeterm.engine.circuit.model import Circuit
-# _Context (the context parts write their currents in) is imported from here by the solvers.
+from nodeterm.engine.equations.equation import Equation, Step
+from nodeterm.engine.errors import Warning
 from nodeterm.engine.equations.procedure import (_Context, _check_connected, _dc_path_warnings, kcl_step, opamp_step, reference_step,
                         sources_step, substitution_step, trees, voltage_tree)
 from nodeterm.engine.symbols import param
+from nodeterm.engine.values import KNOWN, Substitution, parse_values, step_values
 
 
 @dataclass(frozen=True)
@@ -87,8 +86,7 @@ def build_system(circuit: Circuit) -> "System":
     reduced, eliminated, red_unknowns, substitution = substitution_step(
         circuit, known, source_eqs + kcl_eqs + opamp_eqs, unknowns)
     steps = [reference, sources, kcl, opamps, substitution]
-    from nodeterm.engine.analysis.cautions import circuit_warnings  # hazardous sources, real-model keys without effect
-    warnings = list(circuit.warnings) + _dc_path_warnings(circuit) + circuit_warnings(circuit)
+    warnings = list(circuit.warnings) + _dc_path_warnings(circuit)
     return System(circuit=circuit, equations=equations, unknowns=tuple(unknowns), skipped=skipped,
                   steps=tuple(steps), reduced_equations=tuple(reduced), reduced_unknowns=red_unknowns,
                   eliminated=eliminated, needed=tuple(sorted(needed)), values={},
@@ -126,36 +124,15 @@ class System:
     warnings: tuple[Warning, ...] = ()
 
     # --- substitution ---------------------------------------------------------
-    def _value(self, name: str, raw: object) -> sympy.Expr:
-        params = self.circuit.parameters
-        if name not in params:
-            raise InputError(f"unknown parameter {name!r}",
-                             hint="parameters: " + (", ".join(params) or "(none)"), file=self.circuit.path)
-        if isinstance(raw, sympy.Basic):
-            value = as_expr(raw)  # already a SymPy object, never text
-        elif isinstance(raw, bool):
-            raise InputError(f"value for {name} must be a number or an expression", file=self.circuit.path)
-        elif isinstance(raw, int):
-            value = sympy.Integer(raw)
-        elif isinstance(raw, float):
-            value = sympy.Rational(repr(raw))
-        else:
-            try:
-                value = parse_expression(str(raw), lambda n: param(n) if n in params else None)
-            except ExpressionError as err:
-                raise InputError(f"value for {name}: {err.message} in {str(raw)!r}", hint=err.hint,
-                                 column=err.column) from None
-        if value.has(param(name)):
-            raise InputError(f"value for {name} refers to {name} itself", hint="give a plain value")
-        return value
-
-    def substitute(self, values: dict) -> "System":
+    def substitute(self, values: dict, source: str | None = None) -> "System":
         """Substitute parameter values and record the step; returns a new System.
 
         Args:
-            values: name -> value (text in the expression language, a number, or a SymPy expression).
+            values: name -> value (text in the expression language, a number, or a SymPy expression),
+                parsed by :func:`nodeterm.engine.values.parse_value`.
+            source: what to name in an error message (a file, ``--set``); the circuit file by default.
         """
-        parsed = {name: self._value(name, raw) for name, raw in values.items()}
+        parsed = parse_values(self.circuit, values, source)
         previous = {param(n): v for n, v in self.values.items()}
         parsed = {n: v.xreplace(previous) for n, v in parsed.items()}
         mapping = {param(n): v for n, v in parsed.items()}
@@ -170,26 +147,19 @@ class System:
         return replace(self, reduced_equations=reduced, eliminated=eliminated, values=values,
                        steps=self.steps + (step,))
 
+    def apply(self, step: Substitution) -> "System":
+        """One substitution step of a :class:`~nodeterm.engine.values.ValueChoice`; returns a new System."""
+        found = step_values(self.circuit, step, self.values)
+        source = "--set" if step.kind == "set" else None
+        return self.substitute(found, source) if found else self
+
     def substitute_known(self) -> "System":
         """Substitute every parameter that has a value in the circuit file.
 
         Values already substituted win over the file's: a file value written in
         terms of them (``Rf = "Gain*Rin"`` after ``Rin = 4.7k``) uses theirs.
         """
-        raw = {n: p.value for n, p in self.circuit.parameters.items()
-               if p.value is not None and n not in self.values}
-        if not raw:
-            return self
-        mapping = {param(n): v for n, v in {**raw, **self.values}.items()}
-        known = {}
-        for name, value in raw.items():
-            for _ in range(len(mapping) + 1):  # the loader rejects cycles, so this ends
-                new = value.xreplace(mapping)
-                if new == value:
-                    break
-                value = new
-            known[name] = value
-        return self.substitute(known)
+        return self.apply(KNOWN)
 
     def without_substitutions(self) -> "System":
         """The system as generated, with no parameter values substituted."""
@@ -213,8 +183,3 @@ class System:
                           tuple(str(u) for u in self.reduced_unknowns))
         object.__setattr__(self, "_matrix", form)  # a cache on a frozen dataclass, not state
         return form
-
-    def solve(self):
-        """Solve exactly; see :func:`nodeterm.engine.solving.solve.solve_system`."""
-        from nodeterm.engine.solving.solve import solve_system
-        return solve_system(self)

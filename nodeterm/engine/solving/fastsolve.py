@@ -12,7 +12,7 @@ linear solver over a polynomial ring. What is written here is only the glue:
 * :func:`solve_system_fast` derives every current and ``[find]`` quantity in the same
   arithmetic and reduces each result once, by one polynomial GCD.
 
-Results come out in the canonical form of :func:`nodeterm.engine.solving.solve.canonical`: numerator and
+Results come out in the canonical form of :func:`nodeterm.engine.solving.forms.canonical`: numerator and
 denominator coprime over the integers, the denominator's leading coefficient positive in lex order
 of SymPy's own generator order (so the fraction is the one ``sympy.cancel`` gives), collected in s.
 Small results are turned into SymPy expressions; a result with more than :func:`large_terms` terms
@@ -78,10 +78,10 @@ KNOWN_FACTOR_TERMS = 64
 def large_terms() -> int:
     """Results with more terms (numerator plus denominator) stay polynomials until asked for.
 
-    The same limit as the canonical form's: above :data:`nodeterm.engine.solving.solve.FACTOR_LIMIT`
+    The same limit as the canonical form's: above :data:`nodeterm.engine.solving.forms.FACTOR_LIMIT`
     terms a result is printed expanded and collected in s, which the polynomials do directly.
     """
-    from nodeterm.engine.solving.solve import FACTOR_LIMIT
+    from nodeterm.engine.solving.forms import FACTOR_LIMIT
     return FACTOR_LIMIT
 
 
@@ -333,7 +333,7 @@ class PolyField:
 
     def expr(self, a: tuple) -> sympy.Expr:
         """The canonical SymPy form of a reduced fraction (what ``canonical`` would give)."""
-        from nodeterm.engine.solving.solve import FACTOR_LIMIT, canonical, tidy_fraction
+        from nodeterm.engine.solving.forms import FACTOR_LIMIT, canonical, tidy_fraction
         if not self.atoms and len(a[0]) + len(a[1]) > FACTOR_LIMIT:  # no factoring: collect in s
             num, den = self.collected_expr(a[0]), self.collected_expr(a[1])
             return num / den if den != 1 else num
@@ -439,7 +439,7 @@ def _flint_text(p) -> str:
 class LargeExpr:
     """A large exact result kept as polynomials: prints at once, becomes SymPy on demand.
 
-    It stands in for a SymPy expression in :class:`~.solve.Solution`: ``str`` and SymPy's
+    It stands in for a SymPy expression in :class:`~.solution.Solution`: ``str`` and SymPy's
     printers give its canonical text (numerator and denominator collected in s), and
     ``sympy.sympify(x)`` or any SymPy attribute (``x.subs``, ``x.free_symbols``...) builds and
     caches the real expression. Arithmetic delegates to that expression.
@@ -644,8 +644,8 @@ def solve_system_fast(system):
         Unsupported: when something is outside the polynomial path (the caller falls back).
         SolveError: when the equations are singular.
     """
-    from nodeterm.engine.solving.solve import Solution, diagnose_singular, peel_order
-    from nodeterm.engine.equations.system import _Context
+    from nodeterm.engine.equations.procedure import _Context
+    from nodeterm.engine.solving.solution import Solution, diagnose_singular, peel_order
 
     circuit = system.circuit
     m = system.matrix()
