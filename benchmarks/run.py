@@ -39,6 +39,8 @@ from nodeterm.engine import build_system, load_circuit, parse_circuit  # noqa: E
 from nodeterm.engine.solving.numeric import NumericModel  # noqa: E402
 from nodeterm.present.format import expr_text  # noqa: E402
 from nodeterm.present.text import report  # noqa: E402
+from nodeterm.engine.solving.solve import solve_system  # noqa: E402
+from nodeterm.engine.study import Study  # noqa: E402
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 import workbench  # noqa: E402 - benchmarks/workbench.py, next to this file
@@ -188,11 +190,11 @@ def symbolic_ladders(quick: bool) -> float:
     headline = 0.0
     for n in (5, 7, 9, 12):
         system = build_system(parse_circuit(ladder(n)))
-        ours, sol = timed(lambda: [expr_text(v) for v in system.solve().node_voltages.values()], repeat=3)
+        ours, sol = timed(lambda: [expr_text(v) for v in solve_system(system).node_voltages.values()], repeat=3)
         peer = None
         if n <= (7 if quick else 9):
             peer, _ = timed(lambda: peer_sympy_solve(system))
-        terms = len(system.solve().node_voltages[f"n{n}"].fraction[1])
+        terms = len(solve_system(system).node_voltages[f"n{n}"].fraction[1])
         row(f"ladder {n} sections, exact, all node voltages", ours, peer, "sympy.solve (same eqs)",
             f"{terms} terms in the denominator")
         if n == 9 and peer:
@@ -206,12 +208,12 @@ def opamp_circuits(quick: bool) -> None:
             f.write(text)
         try:
             def ours_fn():
-                system = build_system(load_circuit(f.name))
-                return report(system, system.solve())
+                study = Study(load_circuit(f.name))
+                return report(study.records(("system", "matrix", "solution", "warnings")))
             ours, _ = timed(ours_fn, repeat=3)
             system = build_system(load_circuit(f.name))
             peer, _ = timed(lambda: peer_sympy_solve(system))
-            solve_only, _ = timed(system.solve, repeat=3)
+            solve_only, _ = timed(lambda: solve_system(system), repeat=3)
             row(f"{name}: file to printed report", ours, None, "", "target < 0.5 s")
             row(f"{name}: solve only", solve_only, peer, "sympy.solve (same eqs)",
                 "ours also derives every current")
