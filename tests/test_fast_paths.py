@@ -19,6 +19,7 @@ import sympy
 
 from nodeterm.engine import SolveError, build_system, load_circuit, parse_circuit
 from nodeterm.engine.solving import fastsolve
+from nodeterm.engine.solving.fraction_free import determinant
 from nodeterm.engine.solving.numeric import NumericModel
 from nodeterm.engine.solving.solve import solve_linear, solve_linear_sympy, solve_system_sympy
 from nodeterm.engine.symbols import s
@@ -163,7 +164,7 @@ def test_determinant_matches_sympy_on_a_dense_symbolic_matrix():
     M = sympy.Matrix(3, 3, syms)
     field = fastsolve.PolyField(syms)
     rows = [{j: field.ev(M[i, j])[0] for j in range(3)} for i in range(3)]
-    det = fastsolve.determinant(rows, 3, field.one)
+    det = determinant(rows, 3, field.one)
     assert field.poly_expr(det) == sympy.expand(M.det())
 
 

@@ -32,8 +32,8 @@ R2 = ""
 R3 = "R1"
 R4 = "R2"
 [parts]
-S1 = { kind = "vsource", nodes = ["a", "gnd"], value = "V1" }
-S2 = { kind = "vsource", nodes = ["b", "gnd"], value = "V2" }
+S1 = { kind = "voltage_source", nodes = ["a", "gnd"], value = "V1" }
+S2 = { kind = "voltage_source", nodes = ["b", "gnd"], value = "V2" }
 RA = { kind = "resistor", nodes = ["a", "m"], value = "R1" }
 RB = { kind = "resistor", nodes = ["m", "out"], value = "R2" }
 RC = { kind = "resistor", nodes = ["b", "p"], value = "R3" }
@@ -73,7 +73,7 @@ Gain = 100
 Rin = "10k"
 Rf = "Gain*Rin"
 [parts]
-VS = { kind = "vsource", nodes = ["in", "gnd"], value = "Vin" }
+VS = { kind = "voltage_source", nodes = ["in", "gnd"], value = "Vin" }
 R1 = { kind = "resistor", nodes = ["in", "inv"], value = "Rin" }
 R2 = { kind = "resistor", nodes = ["inv", "out"], value = "Rf" }
 U1 = { kind = "opamp", plus = "gnd", minus = "inv", out = "out" }
@@ -107,7 +107,7 @@ title = "mains sense divider"
 [parameters]
 Vline = ""
 [parts]
-VM = { kind = "vsource", nodes = ["line", "gnd"], value = "Vline" }
+VM = { kind = "voltage_source", nodes = ["line", "gnd"], value = "Vline" }
 R1 = { kind = "resistor", nodes = ["line", "sense"], value = "1M" }
 R2 = { kind = "resistor", nodes = ["sense", "gnd"], value = "1k" }
 [find]

@@ -38,7 +38,7 @@ from nodeterm.engine.symbols import as_expr
 from sympy.polys.polyutils import _sort_gens
 
 from nodeterm.engine.errors import SolveError
-from nodeterm.engine.solving.fraction_free import TooManyTerms, cramer, determinant  # noqa: F401 - determinant is imported from here too
+from nodeterm.engine.solving.fraction_free import TooManyTerms, cramer
 from nodeterm.engine.symbols import I, V, param, s
 
 try:  # a dependency, but keep the SymPy path working without it

@@ -33,7 +33,6 @@ from nodeterm.engine.errors import InputError
 from nodeterm.engine.circuit.parts import CurrentSource, VoltageSource, _Passive
 from nodeterm.engine.symbols import I, V, param, s
 
-from nodeterm.engine.circuit.size_limits import EXACT_NODE_LIMIT, check_exact_size  # noqa: F401 - part of this module's API
 
 
 @dataclass
