@@ -98,3 +98,24 @@ def test_a_revision_that_does_not_solve_still_reports_its_parts():
     assert [(p.part, p.change) for p in d.parts] == [("RX", "added")]
     assert any(n.startswith("new: the equations cannot be written") for n in d.notes)
     assert [(r.name, r.change) for r in d.results] == [("gain", "changed")]
+
+
+def test_real_opamp_inputs_swapped_changes_the_result():
+    """With a finite open-loop gain A the swap matters: before, G = -(Rf/Rin)/(1 + (1 + Rf/Rin)/A)
+    (Sedra & Smith sec. 2.2, finite open-loop gain, from memory); after, V_out = A*V_inv with the
+    divider V_inv = (Rf*V_in + Rin*V_out)/(Rin + Rf), solved here with SymPy. Expected: U1 changed with
+    the latch note, its gain equation changed sign, and the gain result changed to that formula."""
+    A, Rf, Rin, vin, vout, vinv = sympy.symbols("A Rf Rin vin vout vinv")
+    real = STAGE.replace('out = "out" }', 'out = "out", gain = "100k" }')
+    old = parse_circuit(real)
+    new = parse_circuit(real.replace('plus = "gnd", minus = "inv"', 'plus = "inv", minus = "gnd"'))
+    d = diff_circuits(old, new)
+    (u1,) = d.parts
+    assert u1.part == "U1" and "latches" in u1.note
+    assert [(e.kind, e.at) for e in d.equations] == [("opamp_gain", "U1")]
+    gain = [r for r in d.results if r.name == "gain"][0]
+    before = -(Rf / Rin) / (1 + (1 + Rf / Rin) / A)
+    sol = sympy.solve([vout - A * vinv, vinv - (Rf * vin + Rin * vout) / (Rin + Rf)], [vout, vinv])
+    after = sol[vout] / vin
+    assert sympy.simplify(gain.old - before.subs(A, 100_000)) == 0
+    assert sympy.simplify(gain.new - after.subs(A, 100_000)) == 0

@@ -95,8 +95,13 @@ def _part_fields(p: Part, q: Part, nodes: dict, parts: dict) -> tuple[list[Field
             if a != b:
                 fields.append(FieldChange(pin, raw, b))
         if mapped[0] == q.nodes[1] and mapped[1] == q.nodes[0]:
-            note = ("inputs swapped: an ideal op-amp still gives V_plus = V_minus, so the ideal equations "
-                    "and results stay the same; check that the feedback reaches the minus input")
+            if q.ideal:
+                note = ("inputs swapped: an ideal op-amp still gives V_plus = V_minus, so the ideal equations "
+                        "and results stay the same; check that the feedback reaches the minus input")
+            else:
+                note = ("inputs swapped: the open-loop gain now acts with the other sign; a linear answer "
+                        "still exists, but with the feedback on the plus input the circuit latches; check "
+                        "that the feedback reaches the minus input")
     elif mapped != q.nodes:
         if len(mapped) == 2 and mapped == q.nodes[::-1]:
             note = "ends reversed: the part's current and value now act the other way"
