@@ -9,6 +9,7 @@ in :mod:`nodeterm.engine.analysis.transfer`) that moved.
 
 from __future__ import annotations
 
+import random
 import re
 
 import sympy
@@ -22,8 +23,26 @@ COMPARE_LIMIT = 3000
 """Results with more operations than this are compared by their canonical text only."""
 
 
+def _points(exprs, count: int = 2):
+    """``count`` points (symbol -> rational) at which every expression of ``exprs`` is finite."""
+    symbols = sorted(set().union(*(e.free_symbols for e in exprs)), key=str)
+    rng = random.Random(1234)
+    found = []
+    for _ in range(8 * count):
+        point = {x: sympy.Rational(rng.randint(2, 997), rng.randint(2, 997)) for x in symbols}
+        values = [e.xreplace(point) for e in exprs]
+        if all(v.is_finite and v.is_number for v in values):
+            found.append((point, values))
+            if len(found) == count:
+                break
+    return found
+
+
 def same_result(a, b) -> bool:
-    """Two results are the same rational function (canonical text for very large ones)."""
+    """Two results are the same rational function (canonical text for very large ones).
+
+    Differing values at a rational point settle "different" cheaply; "same" is then proved exactly.
+    """
     if a is None or b is None:
         return a is b
     if getattr(a, "is_large", False) or getattr(b, "is_large", False):
@@ -33,6 +52,9 @@ def same_result(a, b) -> bool:
         return True
     if sympy.count_ops(a) + sympy.count_ops(b) > COMPARE_LIMIT:
         return str(a) == str(b)
+    for _, (x, y) in _points([a, b], 1):
+        if x != y:
+            return False
     return sympy.cancel(sympy.together(a - b)) == 0
 
 
@@ -75,6 +97,11 @@ def _ratio(old, new):
     old, new = as_expr(old), as_expr(new)
     if old == 0 or sympy.count_ops(old) + sympy.count_ops(new) > COMPARE_LIMIT:
         return None
+    probes = _points([old, new], 2)
+    if len(probes) == 2 and sympy.count_ops(old) + sympy.count_ops(new) > 60:
+        (_, (o1, n1)), (_, (o2, n2)) = probes
+        if o1 == 0 or o2 == 0 or n1 / o1 != n2 / o2:
+            return None  # not a constant factor: the expression would be as long as the results
     r = sympy.cancel(sympy.together(new / old))
     if r.has(s) or any(str(x).startswith(("V_", "I_")) for x in r.free_symbols):
         return None
