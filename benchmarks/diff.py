@@ -19,9 +19,10 @@ ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
-from nodeterm.engine import build_system, parse_circuit  # noqa: E402
+from nodeterm.engine import parse_circuit  # noqa: E402
 from nodeterm.engine.review import diff_circuits  # noqa: E402
 from nodeterm.present.diff import diff_text  # noqa: E402
+from nodeterm.engine.study import Study  # noqa: E402
 from nodeterm.present.text import report  # noqa: E402
 
 
@@ -54,8 +55,7 @@ def main() -> None:
 
         def solve_both():
             for c in (a, b):
-                system = build_system(c)
-                report(system, system.solve())
+                report(Study(c).records(("system", "matrix", "solution", "warnings")))
 
         ours = _timed(lambda: diff_text(diff_circuits(a, b)))
         peer = _timed(solve_both)

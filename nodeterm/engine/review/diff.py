@@ -117,57 +117,5 @@ def diff_circuits(old: Circuit, new: Circuit, old_label: str = "", new_label: st
 
 
 def _study(circuit: Circuit):
-    try:
-        from nodeterm.engine.study import Study
-    except ImportError:  # until the study pipeline is on this branch
-        return _LocalStudy(circuit)
+    from nodeterm.engine.study import Study
     return Study(circuit)
-
-
-class _LocalStudy:
-    """The few records the diff reads, for a tree without :mod:`nodeterm.engine.study`."""
-
-    def __init__(self, circuit: Circuit, known: bool = False) -> None:
-        self.circuit = circuit
-        self._known = known
-        self._cache: dict = {}
-
-    def _get(self, name, fn):
-        if name not in self._cache:
-            self._cache[name] = fn()
-        return self._cache[name]
-
-    @property
-    def base_system(self):
-        from nodeterm.engine.equations.system import build_system
-        return self._get("base", lambda: build_system(self.circuit))
-
-    @property
-    def system(self):
-        return self._get("system", lambda: self.base_system.substitute_known() if self._known
-                         else self.base_system)
-
-    @property
-    def solution(self):
-        return self._get("solution", lambda: self.system.solve())
-
-    @property
-    def numeric(self):
-        return self if self._known else self._get("numeric", lambda: _LocalStudy(self.circuit, True))
-
-    @property
-    def transfer(self):
-        from nodeterm.engine.analysis.transfer import transfer_functions
-        return self._get("transfer", lambda: transfer_functions(self.solution, self.circuit))
-
-    @property
-    def verdicts(self):
-        from nodeterm.engine.audit.verdicts import audit_claims
-        return self._get("verdicts", lambda: tuple(audit_claims(self.system, solution=self.solution))
-                         if self.circuit.hand else ())
-
-    @property
-    def warnings(self):
-        from nodeterm.engine.analysis.cautions import merge, node_cautions
-        return self._get("warnings", lambda: tuple(merge(self.system.warnings,
-                                                         node_cautions(self.solution.node_voltages))))
