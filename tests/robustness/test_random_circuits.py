@@ -1,6 +1,6 @@
 """Property test: random valid circuits with capacitors and controlled sources, against an independent solve.
 
-Extends tests/test_property_random.py (resistors, sources, ideal op-amps) to
+Extends tests/solving/test_property_random.py (resistors, sources, ideal op-amps) to
 capacitors and the four controlled sources. Hypothesis draws:
 
 * a network of resistors and capacitors in which every node reaches the

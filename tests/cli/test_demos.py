@@ -16,7 +16,7 @@ from nodeterm.engine import build_system, load_circuit
 from nodeterm.engine.symbols import s
 from nodeterm.engine.solving.solve import solve_system
 
-DEMOS = sorted((pathlib.Path(__file__).resolve().parents[1] / "circuits").glob("*.toml"))
+DEMOS = sorted((pathlib.Path(__file__).resolve().parents[2] / "circuits").glob("*.toml"))
 
 
 @pytest.mark.parametrize("path", DEMOS, ids=lambda p: p.stem)

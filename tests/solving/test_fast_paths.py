@@ -26,7 +26,7 @@ from nodeterm.engine.symbols import s
 from nodeterm.engine.solving.solve import solve_system
 from nodeterm.engine.values import parse_values
 
-ROOT = Path(__file__).resolve().parent.parent
+ROOT = Path(__file__).resolve().parents[2]
 FILES = sorted(glob.glob(str(ROOT / "circuits" / "*.toml")) + glob.glob(str(ROOT / "tests" / "published" / "*.toml")))
 
 

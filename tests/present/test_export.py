@@ -29,8 +29,8 @@ from nodeterm.engine.values import ValueChoice
 from nodeterm.engine.circuit.expr import parse_expression
 from nodeterm.present.export import BENCH_NOTE, FORMATS, ExportError, render, write_atomic
 
-ROOT = Path(__file__).parents[1]
-AUDIT = Path(__file__).parent / "audit"
+ROOT = Path(__file__).parents[2]
+AUDIT = Path(__file__).parents[1] / "audit"
 DEMOS = sorted((ROOT / "circuits").glob("*.toml"))
 CASES = [AUDIT / "sallen_key.toml", AUDIT / "difference.toml", ROOT / "circuits" / "kiln_preamp.toml",
          ROOT / "circuits" / "greenhouse_loop.toml"]

@@ -135,7 +135,7 @@ def test_engine_and_batch_commands_never_import_textual(tmp_path):
 def test_set_values_win_over_file_values_with_known():
     from nodeterm.cli import main
     import io, contextlib, json, pathlib
-    demo = pathlib.Path(__file__).resolve().parents[1] / "circuits" / "kiln_preamp.toml"
+    demo = pathlib.Path(__file__).resolve().parents[2] / "circuits" / "kiln_preamp.toml"
     out = io.StringIO()
     with contextlib.redirect_stdout(out):
         assert main(["solve", str(demo), "--known", "--set", "Gain=47", "--json"]) == 0

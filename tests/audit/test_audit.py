@@ -33,7 +33,7 @@ from nodeterm.engine.circuit.loader import quantity_resolver
 from nodeterm.engine.symbols import V, I
 from nodeterm.engine.solving.solve import solve_system
 
-HERE = Path(__file__).parent / "audit"
+HERE = Path(__file__).parent
 FILES = sorted(p.name for p in HERE.glob("*.toml"))
 
 
@@ -243,7 +243,7 @@ def test_check_exit_status_bad_claim(tmp_path, capsys):
 
 
 def test_check_without_hand_table(capsys):
-    assert main(["check", str(Path(__file__).parent / "published" / "inverting_amplifier.toml")]) == 2
+    assert main(["check", str(Path(__file__).parents[1] / "published" / "inverting_amplifier.toml")]) == 2
     err = capsys.readouterr().err
     assert "no [hand] table" in err and "Traceback" not in err and len(err.strip().splitlines()) == 1
 
@@ -259,7 +259,7 @@ def test_check_json(tmp_path, capsys):
 
 
 def test_check_with_set_and_known():
-    path = str(Path(__file__).parents[1] / "circuits" / "kiln_preamp.toml")
+    path = str(Path(__file__).parents[2] / "circuits" / "kiln_preamp.toml")
     assert main(["check", path, "--known"]) == 0
     assert main(["check", path, "--set", "Rin=20k"]) == 0
 
