@@ -21,7 +21,8 @@ from nodeterm.engine.errors import InputError
 from nodeterm.present.export import FORMATS, render, write_atomic
 
 CHECK_RECORDS = ("system", "solution", "verdicts", "warnings")
-EXPORT_RECORDS = ("system", "matrix", "solution", "warnings", "verdicts", "transfer", "limits")
+EXPORT_RECORDS = ("system", "matrix", "solution", "warnings", "verdicts")
+JSON_EXPORT_RECORDS = EXPORT_RECORDS + ("transfer", "limits")  # the solve --json contract's analysis keys
 EXPORT_BUDGETS = {"transfer": 20.0}
 
 
@@ -59,7 +60,7 @@ def cmd_check(args) -> int:
 
 def cmd_export(args) -> int:
     study = study_from(args)
-    records = study.records(EXPORT_RECORDS, budgets=EXPORT_BUDGETS)
+    records = study.records(JSON_EXPORT_RECORDS if args.to == "json" else EXPORT_RECORDS, budgets=EXPORT_BUDGETS)
     fmt = "ascii" if args.ascii and args.to == "text" else args.to
     text = render(records, fmt)
     if args.output:
