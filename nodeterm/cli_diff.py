@@ -25,6 +25,12 @@ def add_parsers(sub) -> None:
     form = p.add_mutually_exclusive_group()
     form.add_argument("--json", action="store_true", help="print one JSON object (see docs/json-contract.md)")
     form.add_argument("--markdown", action="store_true", help="print Markdown, to paste into a review")
+    p.add_argument("--set", action="append", metavar="NAME=VALUE",
+                   help="substitute a parameter value into the results of both revisions (repeatable)")
+    p.add_argument("--known", action="store_true",
+                   help="substitute every parameter that has a value in each file into its results")
+    p.add_argument("--relations", action="store_true",
+                   help="substitute only the file values written in terms of other parameters (R3 = \"R2\")")
     p.add_argument("--ascii", action="store_true", help="7-bit text only")
     p.add_argument("--fail-on-result-change", action="store_true",
                    help="exit 1 when any [find] result was added, removed or changed (for CI)")
@@ -46,11 +52,27 @@ def _circuits(args):
     return load_circuit(args.file), load_circuit(args.new), args.file, args.new
 
 
+def _study(circuit, args, label: str):
+    """The study of one revision with the value options (checked against that revision's parameters)."""
+    from nodeterm.cli_common import EXPLAIN_BUDGET, choice_from
+    from nodeterm.engine.circuit.size_limits import check_exact_size
+    from nodeterm.engine.study import Study
+    from nodeterm.engine.values import COMMAND_LINE, parse_values
+    check_exact_size(circuit)
+    study = Study(circuit, choice_from(args), explain_budget=EXPLAIN_BUDGET)
+    try:
+        parse_values(circuit, study.choice.set_items, COMMAND_LINE)
+    except InputError as err:
+        err.message = f"{err.message} (in {label})"
+        raise
+    return study
+
+
 def cmd_diff(args) -> int:
-    from nodeterm.engine.review import diff_circuits
+    from nodeterm.engine.review import diff_studies
     from nodeterm.present.diff import diff_json, diff_markdown, diff_text
     old, new, old_label, new_label = _circuits(args)
-    diff = diff_circuits(old, new, old_label, new_label)
+    diff = diff_studies(_study(old, args, old_label), _study(new, args, new_label), old_label, new_label)
     if args.json:
         print(diff_json(diff))
     elif args.markdown:

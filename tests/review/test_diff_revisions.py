@@ -321,3 +321,18 @@ def test_identical_files_report_nothing(tmp_path, capsys):
     new = write(tmp_path, "new.toml", INVERTING.replace("Greenhouse", "Greenhouse (copy)"))
     code, out, _ = run(capsys, "diff", old, new, "--fail-on-result-change")
     assert code == 0 and "No change in circuit terms." in out
+
+
+def test_value_options_apply_to_both_revisions(tmp_path, capsys):
+    """--known substitutes each file's values into its own results: gain -Rf/Rin becomes -10 and -22
+    (Sedra & Smith sec. 2.2); --set Vs=2 puts the source value into Iin = Vs/Rin = 2/10k on both sides,
+    so Iin (Rin unchanged) is not listed."""
+    old = write(tmp_path, "old.toml", INVERTING)
+    new = write(tmp_path, "new.toml", INVERTING.replace('Rf = "100k"', 'Rf = "220k"'))
+    data = run_json(capsys, "diff", old, new, "--known")
+    gain = only(data["results"], "result", "gain")
+    assert sympy.sympify(gain["old"]) == -10 and sympy.sympify(gain["new"]) == -22
+    data = run_json(capsys, "diff", old, new, "--set", "Vs=2")
+    assert [r["result"] for r in data["results"]] == ["gain"]
+    code, out, err = run(capsys, "diff", old, new, "--set", "Vx=2")
+    assert code == 2 and out == "" and "no parameter 'Vx'" in err and "old.toml" in err
