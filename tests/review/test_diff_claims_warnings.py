@@ -119,3 +119,13 @@ def test_real_opamp_inputs_swapped_changes_the_result():
     after = sol[vout] / vin
     assert sympy.simplify(gain.old - before.subs(A, 100_000)) == 0
     assert sympy.simplify(gain.new - after.subs(A, 100_000)) == 0
+
+
+def test_a_warning_about_a_renamed_node_is_the_same_warning():
+    """Both revisions have inv fed only through capacitors (no DC path); the new one calls the node
+    in_sum. Expected: the rename, and no warning appeared or cleared."""
+    caps = (STAGE.replace('R1 = { kind = "resistor"', 'R1 = { kind = "capacitor"')
+            .replace('R2 = { kind = "resistor"', 'R2 = { kind = "capacitor"'))
+    d = diff_circuits(parse_circuit(caps), parse_circuit(caps.replace('"inv"', '"in_sum"')))
+    assert [(n.old_node, n.node) for n in d.nodes] == [("inv", "in_sum")]
+    assert d.warnings == ()

@@ -331,17 +331,27 @@ def claim_changes(old: Side, new: Side) -> list[ClaimChange]:
     return out
 
 
-def _renamer(names: dict):
-    pairs = {o: n for o, n in names.items() if o != n}
+_NAMED = re.compile(r"\b(nodes?|parts?|op-amps?|sources?) ([A-Za-z_]\w*(?:(?:, | and )[A-Za-z_]\w*)*)")
+
+
+def _renamer(nodes: dict, parts: dict):
+    """Old warning text in the new names: only names that follow "node", "part", "op-amp" or "source"
+    (so a node called ``in`` does not rename the word "in")."""
+    pairs = {o: n for o, n in {**nodes, **parts}.items() if o != n}
     if not pairs:
         return lambda text: text
-    pattern = re.compile(r"\b(" + "|".join(re.escape(o) for o in sorted(pairs, key=len, reverse=True)) + r")\b")
-    return lambda text: pattern.sub(lambda m: pairs[m.group(1)], text)
+
+    def names(m):
+        listed = re.sub(r"[A-Za-z_]\w*", lambda w: w.group(0) if w.group(0) == "and"
+                        else pairs.get(w.group(0), w.group(0)), m.group(2))
+        return f"{m.group(1)} {listed}"
+
+    return lambda text: _NAMED.sub(names, text)
 
 
 def warning_changes(old: Side, new: Side, nodes: dict, parts: dict) -> list[WarningChange]:
     """Warnings and cautions that appeared or cleared (old messages read with the new names)."""
-    rename = _renamer({**nodes, **parts})
+    rename = _renamer(nodes, parts)
     before = {(w.code, parts.get(w.part, w.part), rename(w.message)): w for w in old.warnings}
     after = {(w.code, w.part, w.message): w for w in new.warnings}
     out = [WarningChange(APPEARED, w.code, w.message, w.part) for k, w in after.items() if k not in before]
