@@ -32,13 +32,17 @@ def eng(value: float, unit: str = "", digits: int = 4, ascii_only: bool = False)
         return str(value)
     exp3 = int(math.floor(math.log10(abs(value)) / 3) * 3)
     exp3 = max(-15, min(12, exp3))
+    mant = value / 10 ** exp3
+    text = f"{mant:.{digits}g}"
+    if abs(float(text)) >= 1000 and exp3 < 12:  # rounding pushed it to the next prefix (999.96 -> 1 k)
+        exp3 += 3
+        mant = value / 10 ** exp3
+        text = f"{mant:.{digits}g}"
+    if "e" in text:
+        text = f"{float(text):g}"
     prefix = dict(_PREFIXES)[exp3]
     if ascii_only and prefix == "µ":
         prefix = "u"
-    mant = value / 10 ** exp3
-    text = f"{mant:.{digits}g}"
-    if "e" in text:  # rounding pushed it to the next prefix
-        text = f"{float(text):g}"
     sep = " " if (prefix or unit) else ""
     return f"{text}{sep}{prefix}{unit}"
 
@@ -79,16 +83,76 @@ def is_numeric(expr) -> bool:
     return bool(expr.is_number) and not expr.has(sympy.zoo, sympy.nan)
 
 
-def value_text(expr, unit: str = "", ascii_only: bool = False) -> str:
-    """An exact result, with its engineering-notation value when it is a number.
+def _unit(unit) -> tuple[str, bool]:
+    """(symbol, takes SI prefixes) of a unit given as text or as a ``dimensions.Unit``."""
+    if isinstance(unit, str):
+        return unit, bool(unit) and unit not in ("V/V", "A/A") and not unit.startswith("/")
+    return unit.symbol, unit.prefix
+
+
+def number_text(x: float, unit="", ascii_only: bool = False) -> str:
+    """A number in its unit: engineering notation where the unit takes prefixes, else 4 digits.
+
+    >>> number_text(4.88e-6, "A"), number_text(-0.5, "V/V"), number_text(6283.2, "/s")
+    ('4.88 µA', '-0.5 V/V', '6283 /s')
+    """
+    symbol, prefix = _unit(unit)
+    if prefix:
+        return eng(x, symbol, ascii_only=ascii_only)
+    text = f"{x:.4g}"
+    return f"{text} {symbol}" if symbol else text
+
+
+def dc_value(expr):
+    """H(0) of an expression in s with number coefficients, or None (symbols, a pole at s = 0, too large).
+
+    >>> s = sympy.Symbol("s")
+    >>> dc_value(-10**13/(47*s + 10**7))
+    -1000000
+    >>> dc_value(1/s) is None
+    True
+    """
+    from nodeterm.engine.symbols import s
+    if getattr(expr, "is_large", False):
+        return None
+    e = as_expr(expr)
+    if e.free_symbols != {s}:
+        return None
+    num, den = sympy.fraction(sympy.cancel(sympy.together(e)))
+    n0, d0 = num.subs(s, 0), den.subs(s, 0)
+    if d0 == 0 or not (n0.is_number and d0.is_number):
+        return None
+    return sympy.nsimplify(n0 / d0) if (n0 / d0).has(sympy.Float) else n0 / d0
+
+
+def value_text(expr, unit="", ascii_only: bool = False, tag: bool = False) -> str:
+    """An exact result, then its value in engineering notation with its unit when it is a number.
+
+    ``unit`` is text ("V", "A") or a ``dimensions.Unit``. An expression in s with number
+    coefficients gets its DC value; ``tag=True`` puts the unit after a symbolic result.
 
     >>> value_text(sympy.Rational(-51, 10000), "A")
     '-51/10000 (≈ -5.1 mA)'
+    >>> value_text(sympy.Rational(61, 12500000), "A")
+    '61/12500000 (≈ 4.88 µA)'
+    >>> value_text(-10**13/(47*sympy.Symbol("s") + 10**7), "Ω")
+    '-10000000000000/(47*s + 10000000) (DC ≈ -1 MΩ)'
+    >>> value_text(sympy.Symbol("Rf")*2, "Ω", tag=True)
+    '2*Rf  [Ω]'
     """
+    symbol, _ = _unit(unit)
     text = expr_text(expr)
+    approx = "~" if ascii_only else "≈"
     if is_numeric(expr) and as_expr(expr).is_real:
-        approx = eng(float(expr), unit, ascii_only=ascii_only) if unit else f"{float(expr):.4g}"
-        if as_expr(expr).is_Integer and abs(int(expr)) < 1000:
-            return f"{text} {unit}".rstrip()
-        return f"{text} ({'~' if ascii_only else '≈'} {approx})"
+        value = as_expr(expr)
+        if value.is_Integer and abs(int(value)) < 1000:
+            return f"{text} {symbol}".rstrip()
+        return f"{text} ({approx} {number_text(float(value), unit, ascii_only)})"
+    dc = dc_value(expr)
+    if dc is not None and dc.is_real:
+        if dc.is_Integer and abs(int(dc)) < 1000:
+            return f"{text} (DC: {dc} {symbol})".replace(" )", ")")
+        return f"{text} (DC {approx} {number_text(float(dc), unit, ascii_only)})"
+    if tag and symbol and not getattr(expr, "is_large", False):
+        return f"{text}  [{symbol}]"
     return text

@@ -74,9 +74,12 @@ def render_markdown(records, note: str = "") -> str:
                                                    for pid, v in solution.currents.items()])
         out.append("")
         if solution.find:
+            from nodeterm.present.dimensions import find_units
+            units = find_units(c)
             out += ["### Asked quantities", ""]
-            out += table(["name", "defined as", "value"], [[name, _code(c.find[name].text), _code(value_text(v))]
-                                                          for name, v in solution.find.items()])
+            out += table(["name", "defined as", "value"],
+                         [[name, _code(c.find[name].text), _code(value_text(v, units[name], tag=True))]
+                          for name, v in solution.find.items()])
             out.append("")
     if verdicts:
         from nodeterm.engine.audit.verdicts import summary

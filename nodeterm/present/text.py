@@ -34,7 +34,9 @@ def steps_lines(system) -> list[str]:
 
 
 def solution_lines(system, solution, ascii_only: bool = False) -> list[str]:
+    from nodeterm.present.dimensions import find_units
     c = system.circuit
+    units = find_units(c)
     out = ["Node voltages"]
     for n, v in solution.node_voltages.items():
         tag = " (reference)" if n == c.reference else ""
@@ -49,7 +51,7 @@ def solution_lines(system, solution, ascii_only: bool = False) -> list[str]:
         out.append("")
         out.append("Asked quantities [find]")
         for name, v in solution.find.items():
-            out.append(f"  {name} = {value_text(v, '', ascii_only)}    ({c.find[name].text})")
+            out.append(f"  {name} = {value_text(v, units[name], ascii_only, tag=True)}    ({c.find[name].text})")
     return out
 
 
@@ -66,6 +68,9 @@ def report(records, ascii_only: bool = False) -> str:
     if c.title:
         out += [c.title, "=" * len(c.title), ""]
     out += warning_lines(records.warnings)
+    from nodeterm.present.connections import connection_lines
+    out.append("Connections at each node (part.pin)")
+    out += connection_lines(c) + [""]
     out += steps_lines(system)
     out.append("Matrix form A x = b")
     out += ["  " + ln for ln in matrix_lines(records.matrix, ascii_only)]

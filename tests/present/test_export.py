@@ -259,7 +259,7 @@ def test_cli_export_stdout_with_set(capsys):
     assert main(["export", str(AUDIT / "inverting.toml"), "--to", "markdown", "--set", "R1=10k",
                  "--set", "R2=1M"]) == 0
     out = capsys.readouterr().out
-    assert out.startswith("# Inverting amplifier") and "`-100`" in out
+    assert out.startswith("# Inverting amplifier") and "`-100 V/V`" in out
 
 
 def test_cli_export_bad_format(capsys):

@@ -1,0 +1,187 @@
+"""Engineering notation, units of results and the dimension algebra behind them.
+
+Checks against facts of the trade (SI prefixes, units of derived quantities), published formulas
+(named beside each check) and SymPy's own unit system (``sympy.physics.units``) as a reference.
+"""
+
+from __future__ import annotations
+
+from fractions import Fraction
+from pathlib import Path
+
+import pytest
+import sympy
+from sympy.physics import units as u
+from sympy.physics.units.systems.si import SI, dimsys_SI
+
+from nodeterm.engine import build_system, load_circuit, parse_circuit
+from nodeterm.present.dimensions import (AMPERE, FARAD, HENRY, HERTZ, OHM, ONE, SECOND, SIEMENS, VOLT, Dim,
+                                         dim_of, find_units, parameter_dimensions, unit_of)
+from nodeterm.present.format import eng, number_text, value_text
+from nodeterm.present.text import report
+
+ROOT = Path(__file__).resolve().parents[2]
+CIRCUITS = ROOT / "circuits"
+s = sympy.Symbol("s")
+
+
+# --- engineering notation: common practice, no source ---------------------------------------------
+@pytest.mark.parametrize("value, unit, text", [
+    (4.7e3, "", "4.7 k"),            # common practice, no source
+    (4.7e3, "Ω", "4.7 kΩ"),          # common practice, no source
+    (0.0051, "A", "5.1 mA"),         # common practice, no source
+    (4.88e-6, "A", "4.88 µA"),       # common practice, no source
+    (100e-9, "F", "100 nF"),         # common practice, no source
+    (2.2e6, "Ω", "2.2 MΩ"),          # common practice, no source
+    (1.5e-12, "F", "1.5 pF"),        # common practice, no source
+    (-4.88, "V", "-4.88 V"),         # common practice, no source
+    (999.96, "V", "1 kV"),           # rounds to 1.000e3: one prefix up (common practice, no source)
+    (33.86e3, "Hz", "33.86 kHz"),    # common practice, no source
+])
+def test_eng_prefixes(value, unit, text):
+    assert eng(value, unit) == text
+
+
+def test_eng_ascii_micro():
+    assert eng(4.7e-6, "F", ascii_only=True) == "4.7 uF"  # 'u' for micro in 7-bit text: common practice
+
+
+def test_ratios_and_inverse_units_take_no_prefix():
+    # "707.1 m" would read as metres; a ratio is a plain number (common practice, no source)
+    assert number_text(0.70711, "V/V") == "0.7071 V/V"
+    assert number_text(6283.2, "/s") == "6283 /s"
+    assert number_text(0.70711, "") == "0.7071"
+
+
+def test_exact_first_then_value_with_unit():
+    # the kiln preamp's input current with Vtc = 48.8 mV and Rin = 10 kohm: 4.88 uA (Ohm's law)
+    assert value_text(sympy.Rational(61, 12500000), "A") == "61/12500000 (≈ 4.88 µA)"
+    assert value_text(sympy.Rational(61, 12500000), "A", ascii_only=True) == "61/12500000 (~ 4.88 uA)"
+    assert value_text(sympy.Integer(5), "V") == "5 V"
+
+
+def test_dc_value_of_a_transimpedance():
+    # Zt = -Rf/(1 + s*Rf*Cf) with Rf = 1 Mohm, Cf = 4.7 pF: DC value -Rf = -1 Mohm
+    # (Horowitz & Hill, The Art of Electronics, 3rd ed., sec. 4.3, from memory)
+    zt = -sympy.Integer(10) ** 13 / (47 * s + 10 ** 7)
+    assert sympy.simplify(zt - (-10 ** 6 / (1 + s * 10 ** 6 * sympy.Rational(47, 10 ** 13)))) == 0
+    assert value_text(zt, unit_of(OHM)) == "-10000000000000/(47*s + 10000000) (DC ≈ -1 MΩ)"
+
+
+def test_symbolic_result_gets_its_unit_as_a_tag():
+    assert value_text(-sympy.Symbol("Rf"), unit_of(OHM), tag=True) == "-Rf  [Ω]"
+    assert value_text(-sympy.Symbol("Rf"), unit_of(OHM)) == "-Rf"
+
+
+# --- units of derived quantities: facts of the trade, checked against sympy.physics.units -------------
+def _sympy_dim(quantity) -> Dim:
+    """A sympy.physics.units expression's dimension in volts, amperes and seconds."""
+    dim = u.Dimension(SI.get_dimensional_expr(quantity))
+    names = {str(k.name): Fraction(int(v)) for k, v in dimsys_SI.get_dimensional_dependencies(dim).items()}
+    m, L, T, I = (names.get(k, Fraction(0)) for k in ("mass", "length", "time", "current"))
+    assert L == 2 * m, "not an electrical quantity"
+    # V = M L^2 T^-3 I^-1, so M^m L^2m T^T I^I = V^m A^(I + m) s^(T + 3m)
+    return Dim(m, I + m, T + 3 * m)
+
+
+@pytest.mark.parametrize("ours, theirs", [
+    (VOLT, u.volt), (AMPERE, u.ampere), (SECOND, u.second), (OHM, u.ohm), (SIEMENS, u.siemens),
+    (FARAD, u.farad), (HENRY, u.henry), (HERTZ, u.hertz),
+])
+def test_base_units_agree_with_sympy_units(ours, theirs):
+    assert ours == _sympy_dim(theirs)
+
+
+@pytest.mark.parametrize("formula, dims, theirs", [
+    # time constant tau = R*C (common practice, no source)
+    ("R*C", {"R": OHM, "C": FARAD}, u.ohm * u.farad),
+    # L/R time constant (common practice, no source)
+    ("L/R", {"L": HENRY, "R": OHM}, u.henry / u.ohm),
+    # Sallen-Key natural frequency w0 = 1/(R*sqrt(C1*C2)) (Franco, Design with Operational
+    # Amplifiers, 3rd ed., sec. 3.4, from memory)
+    ("1/(R*sqrt(C1*C2))", {"R": OHM, "C1": FARAD, "C2": FARAD}, 1 / u.second),
+    # LC resonance w0 = 1/sqrt(L*C) (common practice, no source)
+    ("1/sqrt(L*C)", {"L": HENRY, "C": FARAD}, 1 / u.second),
+    # transconductance gm = Ic/VT (Sedra & Smith, Microelectronic Circuits, sec. 6.2, from memory)
+    ("Ic/VT", {"Ic": AMPERE, "VT": VOLT}, u.siemens),
+    # charge on a capacitor Q = C*V (common practice, no source)
+    ("C*Vc", {"C": FARAD, "Vc": VOLT}, u.coulomb),
+    # slew rate of an integrator I/C (common practice, no source)
+    ("Ich/C", {"Ich": AMPERE, "C": FARAD}, u.volt / u.second),
+])
+def test_dimensions_of_published_formulas(formula, dims, theirs):
+    from nodeterm.engine.circuit.expr import parse_expression
+    expr = parse_expression(formula, resolve=lambda name: sympy.Symbol(name))
+    assert dim_of(expr, dims) == _sympy_dim(theirs)
+
+
+def test_mixed_dimensions_give_no_unit():
+    R, C = sympy.symbols("R C")
+    assert dim_of(R + C, {"R": OHM, "C": FARAD}) is None
+
+
+def test_unit_names():
+    assert unit_of(OHM).symbol == "Ω"
+    assert unit_of(SIEMENS).symbol == "S"
+    assert unit_of(VOLT / SECOND).symbol == "V/s"
+    assert unit_of(ONE, "V/V").symbol == "V/V" and not unit_of(ONE, "V/V").prefix
+    assert unit_of(None).symbol == ""
+
+
+# --- dimensions of parameters from the parts they set ------------------------------------------------
+TIA = """
+title = "Photodiode transimpedance stage"
+[parameters]
+Iph = ""
+Rf = "1M"
+Cf = "4.7p"
+[parts]
+PD = { kind = "isource", nodes = ["gnd", "inv"], value = "Iph" }
+RF = { kind = "resistor", nodes = ["inv", "out"], value = "Rf" }
+CF = { kind = "capacitor", nodes = ["inv", "out"], value = "Cf" }
+U1 = { kind = "opamp", plus = "gnd", minus = "inv", out = "out" }
+[find]
+Zt = "V_out/Iph"
+Zt2 = "V_out/I_PD"
+Iout = "I_U1"
+gain = "V_out/V_inv"
+"""
+
+
+def test_transimpedance_gain_is_in_ohms():
+    # Vout = -Iph*Rf at DC: the transimpedance V_out/I_in is a resistance
+    # (Horowitz & Hill, The Art of Electronics, 3rd ed., sec. 4.3, from memory)
+    c = parse_circuit(TIA)
+    units = find_units(c)
+    assert units["Zt"].symbol == "Ω" and units["Zt2"].symbol == "Ω"
+    assert units["Iout"].symbol == "A"
+    assert units["gain"].symbol == "V/V"
+    system = build_system(c).substitute(c.known_values())
+    text = report(system, system.solve())
+    assert "Zt = -10000000000000/(47*s + 10000000) (DC ≈ -1 MΩ)" in text
+
+
+def test_parameter_dimensions_of_the_demos():
+    kiln = parameter_dimensions(load_circuit(str(CIRCUITS / "kiln_preamp.toml")))
+    assert kiln["Rin"] == OHM and kiln["Rf"] == OHM and kiln["Vtc"] == VOLT
+    assert kiln["Gain"] == ONE                      # from Rf = Gain*Rin
+    loop = parameter_dimensions(load_circuit(str(CIRCUITS / "greenhouse_loop.toml")))
+    assert loop["Izero"] == AMPERE                  # written "4mA"
+    assert loop["Span"] == SIEMENS                  # from Rsense = 1/(2*Span)
+    ramp = parameter_dimensions(load_circuit(str(CIRCUITS / "vent_ramp_integrator.toml")))
+    assert ramp["tau"] == SECOND                    # from C = tau/R, though tau = 1 is a plain number
+    fan = parameter_dimensions(load_circuit(str(CIRCUITS / "fan_booster.toml")))
+    assert fan["beta"] == ONE                       # the gain of a cccs
+    assert fan["VT"] == VOLT and fan["IC"] == AMPERE
+
+
+def test_report_shows_units_of_every_numeric_result():
+    c = load_circuit(str(CIRCUITS / "kiln_preamp.toml"))
+    values = dict(c.known_values(), Vtc=sympy.Rational(488, 10000))
+    system = build_system(c).substitute(values)
+    text = report(system, system.solve())
+    # Vout = -(Rf/Rin)*Vtc = -100*48.8 mV = -4.88 V (inverting amplifier; Sedra & Smith sec. 2.2, from memory)
+    assert "V_out = -122/25 (≈ -4.88 V)" in text
+    assert "I_R1 = 61/12500000 (≈ 4.88 µA)" in text
+    assert "gain = -100 V/V" in text
+    assert "Iin = 61/12500000 (≈ 4.88 µA)" in text
