@@ -12,8 +12,8 @@ the nodes a voltage-controlled source senses (no current flows there), and ``plu
 from __future__ import annotations
 
 _PASSIVE = ("resistor", "capacitor", "inductor")
-_VOLTAGE_PINS = ("vsource", "voltage_source", "vcvs", "ccvs")
-_CURRENT_PINS = ("isource", "current_source", "vccs", "cccs")
+_VOLTAGE_PINS = ("voltage_source", "vcvs", "ccvs")
+_CURRENT_PINS = ("current_source", "vccs", "cccs")
 
 
 def pins(part) -> list[tuple[str, str]]:

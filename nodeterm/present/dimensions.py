@@ -58,7 +58,7 @@ HENRY = VOLT * SECOND / AMPERE
 HERTZ = SECOND ** -1
 
 _PASSIVE = {"resistor": OHM, "capacitor": FARAD, "inductor": HENRY}
-_VALUE = {"vsource": VOLT, "voltage_source": VOLT, "isource": AMPERE, "current_source": AMPERE, **_PASSIVE}
+_VALUE = {"voltage_source": VOLT, "current_source": AMPERE, **_PASSIVE}
 _GAIN = {"vcvs": ONE, "cccs": ONE, "vccs": SIEMENS, "ccvs": OHM, "opamp": ONE}
 _OPAMP_EXTRA = {"gbw": HERTZ, "rin": OHM, "rout": OHM, "rails": VOLT, "max_current": AMPERE}
 _LITERAL_UNITS = {"ohm": OHM, "Ω": OHM, "Hz": HERTZ, "F": FARAD, "H": HENRY, "V": VOLT, "A": AMPERE,

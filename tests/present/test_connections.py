@@ -39,7 +39,7 @@ def test_every_pin_is_listed_once_at_the_node_the_file_gives(path):
 def test_sensing_pins_and_a_dangling_node_are_shown():
     c = parse_circuit("""
 [parts]
-V1 = { kind = "vsource", nodes = ["a", "gnd"], value = "1" }
+V1 = { kind = "voltage_source", nodes = ["a", "gnd"], value = "1" }
 R1 = { kind = "resistor", nodes = ["a", "b"], value = "1k" }
 R2 = { kind = "resistor", nodes = ["b", "gnd"], value = "1k" }
 E1 = { kind = "vcvs", nodes = ["c", "gnd"], control = ["b", "gnd"], gain = "2" }

@@ -136,7 +136,7 @@ Iph = ""
 Rf = "1M"
 Cf = "4.7p"
 [parts]
-PD = { kind = "isource", nodes = ["gnd", "inv"], value = "Iph" }
+PD = { kind = "current_source", nodes = ["gnd", "inv"], value = "Iph" }
 RF = { kind = "resistor", nodes = ["inv", "out"], value = "Rf" }
 CF = { kind = "capacitor", nodes = ["inv", "out"], value = "Cf" }
 U1 = { kind = "opamp", plus = "gnd", minus = "inv", out = "out" }
