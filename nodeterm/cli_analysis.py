@@ -131,13 +131,17 @@ def cmd_response(args) -> int:
     in_effect = "With the values substituted (" + "; ".join(study.choice.describe()) + "):" \
         if study.choice.steps else "With every parameter as a symbol:"
     responses = []
+    from nodeterm.present.dimensions import find_units
+    units = find_units(circuit)
     for name, tf in tfs.items():
         if name in tfs_sym:
-            lines += [in_effect] + ["  " + ln for ln in transfer_lines(tfs_sym[name], args.ascii)]
+            lines += [in_effect] + ["  " + ln for ln in transfer_lines(tfs_sym[name], args.ascii,
+                                                                        units.get(name))]
         else:
             lines += [f"{in_effect[:-1]}: not shown ({too_large}).", ""]
         if study is not numeric and (name not in tfs_sym or tf.expr != tfs_sym[name].expr):
-            lines += ["", "With every value known:"] + ["  " + ln for ln in transfer_lines(tf, args.ascii)]
+            lines += ["", "With every value known:"] + ["  " + ln for ln in transfer_lines(tf, args.ascii,
+                                                                                         units.get(name))]
         if tf.is_numeric:
             resp = frequency_response(tf, f_lo, f_hi, args.points)
             responses.append(resp)

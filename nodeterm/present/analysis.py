@@ -78,11 +78,19 @@ def _root_text(r) -> str:
 
 
 # --- transfer functions ------------------------------------------------------------------------
-def transfer_lines(tf, ascii_only: bool = False) -> list[str]:
-    """H(s) = N/D with its coefficients, poles, zeros, gains and sections."""
+def transfer_lines(tf, ascii_only: bool = False, unit=None) -> list[str]:
+    """H(s) = N/D, its normalized form, coefficients, poles, zeros, gains and sections.
+
+    ``unit``: the unit of H (``dimensions.find_units``), shown with K.
+    """
+    from nodeterm.present.normal_form import normal_form, normal_form_lines
     out = [f"{tf.name}(s) = N(s)/D(s), order {tf.order}"]
     out.append(f"  N(s) = {expr_text(tf.num)}")
     out.append(f"  D(s) = {expr_text(tf.den)}")
+    nf = normal_form(tf)
+    if nf is not None:
+        out.append("  normalized form:")
+        out += normal_form_lines(nf, unit, "    ", ascii_only)
     out.append("  coefficients, highest power of s first:")
     out.append("    N: " + ", ".join(expr_text(c) for c in tf.num_coeffs))
     out.append("    D: " + ", ".join(expr_text(c) for c in tf.den_coeffs))
@@ -359,8 +367,11 @@ def _json_root(r):
     return expr_text(r)
 
 
-def transfer_dict(tf) -> dict:
-    """One transfer function as plain data (expressions as SymPy-syntax strings)."""
+def transfer_dict(tf, unit=None) -> dict:
+    """One transfer function as plain data (expressions as SymPy-syntax strings).
+
+    ``normalized`` (additive): K and the factors of the normalized form, or null.
+    """
     sections = []
     for sec in tf.sections:
         d = {"where": sec.where, "order": sec.order,
@@ -381,7 +392,13 @@ def transfer_dict(tf) -> dict:
             "poles": None if tf.poles is None else [_json_root(r) for r in tf.poles],
             "zeros": None if tf.zeros is None else [_json_root(r) for r in tf.zeros],
             "dc_gain": _json_num(tf.dc_gain), "hf_gain": _json_num(tf.hf_gain),
-            "sections": sections}
+            "sections": sections, "normalized": _normalized_dict(tf, unit)}
+
+
+def _normalized_dict(tf, unit=None):
+    from nodeterm.present.normal_form import normal_form, normal_form_dict
+    nf = normal_form(tf)
+    return None if nf is None else normal_form_dict(nf, unit)
 
 
 def limits_dict(checks) -> dict:

@@ -289,3 +289,19 @@ def find_units(circuit, dims: dict[str, Dim] | None = None) -> dict[str, Unit]:
 def result_units(circuit) -> tuple[Unit, Unit, dict[str, Unit]]:
     """(unit of node voltages, unit of part currents, unit of each [find] quantity)."""
     return unit_of(VOLT), unit_of(AMPERE), find_units(circuit)
+
+
+def results_dict(circuit, solution) -> dict:
+    """The additive JSON keys ``units`` and ``formatted``: each result's unit, and its text as the
+    reports print it (exact, then the value with SI prefix and unit: ``61/12500000 (≈ 4.88 µA)``)."""
+    from nodeterm.present.format import value_text
+    volt, amp, finds = result_units(circuit)
+    return {
+        "units": {"node_voltages": volt.symbol, "currents": amp.symbol,
+                  "find": {n: finds[n].symbol for n in solution.find if n in finds}},
+        "formatted": {
+            "node_voltages": {n: value_text(v, volt) for n, v in solution.node_voltages.items()},
+            "currents": {n: value_text(v, amp) for n, v in solution.currents.items()},
+            "find": {n: value_text(v, finds.get(n, PLAIN)) for n, v in solution.find.items()},
+        },
+    }

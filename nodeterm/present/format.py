@@ -100,6 +100,9 @@ def number_text(x: float, unit="", ascii_only: bool = False) -> str:
     if prefix:
         return eng(x, symbol, ascii_only=ascii_only)
     text = f"{x:.4g}"
+    if "e" in text:  # 1e+06 -> 1e6
+        mant, exp = text.split("e")
+        text = f"{mant}e{int(exp)}"
     return f"{text} {symbol}" if symbol else text
 
 
@@ -155,4 +158,34 @@ def value_text(expr, unit="", ascii_only: bool = False, tag: bool = False) -> st
         return f"{text} (DC {approx} {number_text(float(dc), unit, ascii_only)})"
     if tag and symbol and not getattr(expr, "is_large", False):
         return f"{text}  [{symbol}]"
+    return text
+
+
+def pretty_text(expr, width: int | None = None) -> str | None:
+    """The 2-D form of an expression (or of ``sympy.Eq``), names written as in the one-line form.
+
+    SymPy's pretty printer turns ``V_out`` into V with subscript letters where Unicode has them
+    (``Vₒᵤₜ``) and leaves ``V_gnd`` with its underscore (there is no subscript g), and ``R1``
+    becomes ``R₁``: the same kind of name would show two ways. Here every name is printed as
+    written, so the 2-D form matches the one-line form and the circuit file.
+    Returns None when a line is wider than ``width`` or the printer fails.
+
+    >>> print(pretty_text(sympy.Symbol("V_out")/sympy.Symbol("V_gnd") + sympy.Symbol("R1")))
+         V_out
+    R1 + ─────
+         V_gnd
+    """
+    from sympy.printing.pretty.pretty import PrettyPrinter
+    from sympy.printing.pretty.stringpict import prettyForm
+
+    class _Names(PrettyPrinter):
+        def _print_Symbol(self, e, bold_name=False):  # noqa: D401 - SymPy printer hook
+            return prettyForm(e.name)
+
+    try:
+        text = _Names({"use_unicode": True, "wrap_line": False}).doprint(expr)
+    except Exception:  # noqa: BLE001 - the 2-D form is optional decoration; the caller keeps one line
+        return None
+    if width is not None and max((len(ln) for ln in text.splitlines()), default=0) > width:
+        return None
     return text

@@ -50,9 +50,14 @@ def solution_dict(records, numeric: bool = False) -> dict:
         out["currents"] = {n: fmt(v) for n, v in solution.currents.items()}
         out["find"] = {n: fmt(v) for n, v in solution.find.items()}
     if records.transfer is not None:
-        out["transfer"] = {n: transfer_dict(tf) for n, tf in records.transfer.items()}
+        from nodeterm.present.dimensions import find_units
+        units = find_units(c)
+        out["transfer"] = {n: transfer_dict(tf, units.get(n)) for n, tf in records.transfer.items()}
     if records.limits is not None:
         out["limits"] = limits_dict(list(records.limits))
+    if solution is not None and not numeric:
+        from nodeterm.present.dimensions import results_dict
+        out.update(results_dict(c, solution))
     if solution is not None:
         out["note"] = LINEAR_NOTE
     if records.omitted:

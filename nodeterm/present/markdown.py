@@ -81,6 +81,13 @@ def render_markdown(records, note: str = "") -> str:
                          [[name, _code(c.find[name].text), _code(value_text(v, units[name], tag=True))]
                           for name, v in solution.find.items()])
             out.append("")
+            from nodeterm.present.normal_form import normal_form_lines, normal_forms
+            forms = normal_forms(solution, c)
+            if forms:
+                out += ["### Transfer functions in normalized form", "", "```text"]
+                for name, nf in forms.items():
+                    out += normal_form_lines(nf, units[name], "")
+                out += ["```", ""]
     if verdicts:
         from nodeterm.engine.audit.verdicts import summary
         out += ["## Audit of the hand derivation", "", summary(verdicts) + ".", ""]

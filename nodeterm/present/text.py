@@ -33,10 +33,14 @@ def steps_lines(system) -> list[str]:
     return out
 
 
-def solution_lines(system, solution, ascii_only: bool = False) -> list[str]:
+def solution_lines(system, solution, ascii_only: bool = False, transfer: dict | None = None) -> list[str]:
+    """Node voltages, currents and [find] quantities with their units; a [find] quantity in s
+    also in its normalized form (``transfer``: name -> TransferFunction, computed when None)."""
     from nodeterm.present.dimensions import find_units
+    from nodeterm.present.normal_form import normal_form_lines, normal_forms
     c = system.circuit
     units = find_units(c)
+    forms = normal_forms(solution, c, transfer) if solution.find else {}
     out = ["Node voltages"]
     for n, v in solution.node_voltages.items():
         tag = " (reference)" if n == c.reference else ""
@@ -52,6 +56,8 @@ def solution_lines(system, solution, ascii_only: bool = False) -> list[str]:
         out.append("Asked quantities [find]")
         for name, v in solution.find.items():
             out.append(f"  {name} = {value_text(v, units[name], ascii_only, tag=True)}    ({c.find[name].text})")
+            if name in forms:
+                out += normal_form_lines(forms[name], units[name], "      ", ascii_only)
     return out
 
 

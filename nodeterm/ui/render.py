@@ -1,8 +1,8 @@
 """Equations and values as the workbench shows them.
 
 One-line form by default (the presenters' SymPy string form); the 2-D form is
-SymPy's own pretty printer, used only when every line fits the width given,
-otherwise the one-line form is kept. Printing is cached: the panes redraw the
+SymPy's pretty printer with names as written (``present.format.pretty_text``),
+used only when every line fits the width given, otherwise the one-line form is kept. Printing is cached: the panes redraw the
 same equations each time a selection moves.
 """
 
@@ -12,7 +12,7 @@ from functools import lru_cache
 
 import sympy
 
-from nodeterm.present.format import equation_text, expr_text
+from nodeterm.present.format import equation_text, expr_text, pretty_text
 
 MARK = "▶"       # marks the selected item (a textual marker, legible without colour)
 TIED = "*"       # marks items tied to the selection
@@ -23,14 +23,12 @@ def one_line(lhs, rhs) -> str:
 
 
 def pretty(lhs, rhs, width: int) -> str | None:
-    """The 2-D form of ``lhs = rhs`` if it fits in ``width`` columns, else None."""
+    """The 2-D form of ``lhs = rhs`` if it fits in ``width`` columns, else None (names as written)."""
     try:
-        text = sympy.pretty(sympy.Eq(lhs, rhs, evaluate=False), use_unicode=True, wrap_line=False)
+        eq = sympy.Eq(lhs, rhs, evaluate=False)
     except Exception:  # noqa: BLE001 - the printer is optional decoration; fall back to one line
         return None
-    if max((len(ln) for ln in text.splitlines()), default=0) > width:
-        return None
-    return text
+    return pretty_text(eq, width)
 
 
 @lru_cache(maxsize=4096)
@@ -51,10 +49,7 @@ def term(expr) -> str:
 
 def expression(expr, two_d: bool = False, width: int = 70) -> str:
     if two_d:
-        try:
-            text = sympy.pretty(expr, use_unicode=True, wrap_line=False)
-            if max(len(ln) for ln in text.splitlines()) <= width:
-                return text
-        except Exception:  # noqa: BLE001
-            pass
+        text = pretty_text(expr, width)
+        if text is not None:
+            return text
     return expr_text(expr)

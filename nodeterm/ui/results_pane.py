@@ -11,7 +11,7 @@ import textwrap
 from textual.containers import ScrollableContainer
 from textual.widgets import Static
 
-from nodeterm.present.format import value_text
+from nodeterm.present.format import expr_text, value_text
 from nodeterm.ui import render
 from nodeterm.ui.describe import part_group, part_nodes
 
@@ -31,8 +31,12 @@ def _value(expr, unit: str, two_d: bool, width: int) -> str:
     if two_d and not getattr(expr, "is_large", False):  # a large result never fits in 2-D
         text = render.expression(expr, True, width)
         if "\n" in text:
-            return "\n" + "\n".join("      " + ln for ln in text.splitlines())
-    return _cut(value_text(expr, unit))
+            lines = ["      " + ln for ln in text.splitlines()]
+            one, full = expr_text(expr), value_text(expr, unit, tag=not isinstance(unit, str))
+            if full.startswith(one) and full[len(one):].strip():  # the value with its unit, DC value
+                lines.append("      " + full[len(one):].strip())
+            return "\n" + "\n".join(lines)
+    return _cut(value_text(expr, unit, tag=not isinstance(unit, str)))  # a [find] unit follows symbols
 
 
 def _cut(text: str) -> str:
@@ -62,9 +66,14 @@ def result_lines(system, solution, two_d: bool = False, width: int = 70) -> list
             where = f"   [{p.kind} {part_nodes(p)}]" if group != "opamp" else f"   [into node {p.out}]"
             out.append(f"  I_{p.id} = {_value(solution.currents[p.id], 'A', two_d, width)}{where}")
     if solution.find:
+        from nodeterm.present.dimensions import find_units
+        from nodeterm.present.normal_form import normal_form_lines, normal_forms
+        units, forms = find_units(c), normal_forms(solution, c)
         out += ["", "Asked quantities [find]"]
         for name, v in solution.find.items():
-            out.append(f"  {name} = {_value(v, '', two_d, width)}   ({c.find[name].text})")
+            out.append(f"  {name} = {_value(v, units[name], two_d, width)}   ({c.find[name].text})")
+            if name in forms:
+                out += normal_form_lines(forms[name], units[name], "      ")
     if solution.is_reactive:
         out += ["", "Results depend on s (Laplace variable): they are transfer functions / impedances."]
     return out
