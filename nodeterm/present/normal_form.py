@@ -10,8 +10,11 @@ right-half-plane root), each second-order ``a2*s**2 + a1*s + a0`` becomes
 (Franco, Design with Operational Amplifiers, ch. 3 -- from memory). Because every normalized
 factor is 1 at s = 0, K is the ratio of the lowest non-zero coefficients of N and D.
 
-Read from the engine's ``TransferFunction`` record (its ``sections``, coefficients and roots);
-nothing here factors or solves again.
+Read from H(s) itself: ``factor_list`` in s, then ``cancel`` and square roots taken with the
+parameters positive. The engine's ``TransferFunction`` gives the same w0 and Q in its
+``sections`` (the tests compare them), but it also finds exact roots and simplifies, which takes
+seconds on a small symbolic filter; the reports print this form on every solve, so it reads the
+factors itself in milliseconds.
 """
 
 from __future__ import annotations
@@ -129,84 +132,139 @@ def _lowest(coeffs) -> tuple[int, sympy.Expr]:
     return 0, sympy.Integer(0)
 
 
+def _positive_symbols(x: sympy.Expr) -> tuple[sympy.Expr, dict]:
+    fwd = {y: sympy.Symbol(y.name, positive=True) for y in x.free_symbols if y != s}
+    return x.xreplace(fwd), {v: k for k, v in fwd.items()}
+
+
 def _is_negative(x: sympy.Expr) -> bool:
     """Negative as a number, or for every positive value of its symbols (component values)."""
     x = as_expr(x)
     if x.is_number:
         return bool(x.is_real and x < 0)
-    pos = x.xreplace({y: sympy.Symbol(y.name, positive=True) for y in x.free_symbols})
-    return bool(pos.is_negative)
+    return bool(_positive_symbols(x)[0].is_negative)
 
 
-def _root_near(roots, w: float, order: int):
-    """The root of magnitude w (order 1: real; order 2: the one with positive imaginary part)."""
-    best = None
-    for r in roots or ():
+def _sqrt_positive(x: sympy.Expr) -> sympy.Expr:
+    """sqrt(x) with the symbols taken positive, so that sqrt(1/(C1*C2)) reads 1/(sqrt(C1)*sqrt(C2))."""
+    pos, back = _positive_symbols(as_expr(x))
+    return sympy.sqrt(pos).xreplace(back)
+
+
+def _numeric_factors(coeffs, where: str, mult: int) -> list[NormalFactor]:
+    """Factors of a polynomial with number coefficients from its roots (floats): real roots give
+    1 +- s/w, complex pairs w0 = |p| and Q = |p|/(-2*Re p) (negative in the right half-plane)."""
+    from nodeterm.engine.analysis.transfer import numeric_roots
+    out = []
+    for r in numeric_roots(coeffs):
         z = complex(r)
-        if order == 2 and z.imag <= 0:
+        mag = abs(z)
+        if abs(z.imag) <= 1e-9 * max(mag, 1e-300):
+            out.append(NormalFactor(where, 1, sympy.Float(mag), None, -1 if z.real > 0 else 1, mult))
+        elif z.imag > 0:
+            q = sympy.oo if z.real == 0 else sympy.Float(mag / (-2 * z.real))
+            out.append(NormalFactor(where, 2, sympy.Float(mag), q, 1, mult))
+    return out
+
+
+def _factor_list(poly_expr: sympy.Expr) -> list[tuple[sympy.Expr, int]]:
+    """Irreducible factors with multiplicity (the content left out), by FLINT when the coefficients
+    are integers: SymPy's multivariate factoring takes about half a second on a symbolic
+    state-variable filter's denominator, FLINT's a millisecond."""
+    from nodeterm.engine.solving import fastsolve
+    gens = sorted(poly_expr.free_symbols, key=lambda x: x.name)
+    if fastsolve.flint is not None and gens:
+        try:
+            poly = sympy.Poly(poly_expr, *gens)
+        except sympy.PolynomialError:
+            poly = None
+        if poly is not None and poly.domain == sympy.ZZ:
+            ctx = fastsolve.flint.fmpz_mpoly_ctx.get(tuple(f"x{i}" for i in range(len(gens))), "lex")
+            try:
+                _, factors = ctx.from_dict({m: int(c) for m, c in poly.terms()}).factor()
+            except Exception:  # noqa: BLE001 - python-flint can overflow on huge coefficients; SymPy then
+                factors = None
+            if factors is not None:
+                return [(sympy.Add(*[sympy.Mul(sympy.Integer(int(c)), *[g**k for g, k in zip(gens, mono) if k])
+                                     for mono, c in f.to_dict().items()]), int(mult)) for f, mult in factors]
+    return [(f, int(m)) for f, m in sympy.factor_list(poly_expr, s)[1]]
+
+
+def _factors(poly_expr: sympy.Expr, where: str) -> list[NormalFactor] | None:
+    """The normalized factors of N or D (roots at the origin left out: K and s**k carry them)."""
+    out: list[NormalFactor] = []
+    if not poly_expr.has(s):
+        return out
+    for factor, mult in _factor_list(poly_expr):
+        poly = sympy.Poly(factor, s)
+        if _is_negative(poly.LC()):  # a factor's sign goes to K (the lowest coefficients), not to Q
+            factor, poly = -factor, -poly
+        c = poly.all_coeffs()
+        numeric = all(x.is_number for x in c)
+        if poly.degree() <= 0:
             continue
-        if order == 1 and abs(z.imag) > 1e-9 * max(abs(z), 1e-300):
-            continue
-        if best is None or abs(abs(z) - w) < abs(abs(best) - w):
-            best = z
-    return best
+        if poly.degree() == 1:
+            a1, a0 = c
+            if a0 == 0:
+                continue
+            ratio = sympy.cancel(a0 / a1)
+            sign = -1 if _is_negative(ratio) else 1
+            out.append(NormalFactor(where, 1, sympy.cancel(sign * ratio), None, sign, mult))
+        elif poly.degree() == 2 and not (numeric and c[1] ** 2 - 4 * c[0] * c[2] >= 0):
+            a2, a1, a0 = c
+            w0 = _sqrt_positive(sympy.cancel(a0 / a2))
+            # Q = sqrt(a0*a2)/a1, negative for a pair in the right half-plane (a1 < 0)
+            q = sympy.oo if a1 == 0 else _sqrt_positive(sympy.factor(a0 * a2)) / sympy.factor(a1)
+            out.append(NormalFactor(where, 2, w0, q, 1, mult))
+        elif numeric:
+            out += _numeric_factors(c, where, mult)
+        else:  # symbolic and of higher order: kept whole, divided by its value at s = 0
+            f0 = factor.subs(s, 0)
+            if f0 == 0:
+                return None
+            poly_n = sympy.collect(sympy.expand(sympy.cancel(factor / f0)), s)
+            out.append(NormalFactor(where, poly.degree(), None, None, 1, mult, poly=poly_n))
+    return out
 
 
-def normal_form(tf) -> NormalForm | None:
-    """The normalized form of a ``TransferFunction``, or None when its factors are not known.
+def normal_form_of(expr, name: str = "H") -> NormalForm | None:
+    """The normalized form of a result in s, read from its own factors; None when it has no s or is large.
 
-    >>> from nodeterm.engine.analysis.transfer import transfer_function
+    Factoring the numerator and denominator in s takes milliseconds on a result a person reads;
+    the square roots of w0 and Q split with the parameters taken positive (component values).
+
     >>> R, C = sympy.symbols("R C")
-    >>> nf = normal_form(transfer_function(-R/(s*R*C + 1)))
+    >>> nf = normal_form_of(-R/(s*R*C + 1))
     >>> nf.template(), nf.gain, nf.poles[0].w
     ('K/(1 + s/wp)', -R, 1/(C*R))
     """
-    if not tf.sections and tf.order > 0 and len(tf.num_coeffs) > 1:
+    if getattr(expr, "is_large", False):
         return None
-    kn, n_low = _lowest(tf.num_coeffs)
-    kd, d_low = _lowest(tf.den_coeffs)
+    e = sympy.cancel(sympy.together(as_expr(expr)))
+    if not e.has(s):
+        return None
+    num, den = (sympy.expand(x) for x in sympy.fraction(e))
+    pn, pd = sympy.Poly(num, s), sympy.Poly(den, s)
+    if pd.LC().is_number and pd.LC() < 0:
+        num, den, pn, pd = -num, -den, -pn, -pd
+    kn, n_low = _lowest(pn.all_coeffs())
+    kd, d_low = _lowest(pd.all_coeffs())
     if n_low == 0 or d_low == 0:
         return None
-    gain = sympy.cancel(n_low / d_low)
-    factors: list[NormalFactor] = []
-    degree = {"zero": 0, "pole": 0}
-    for sec in tf.sections:
-        if sec.factor is not None and not as_expr(sec.factor).has(s):
-            continue
-        if sec.order == 0:  # a root at the origin: counted by the lowest coefficients
-            degree[sec.where] += sec.multiplicity
-            continue
-        roots = tf.poles if sec.where == "pole" else tf.zeros
-        if sec.order == 1 and sec.w0 is not None:
-            w, sign = sec.w0, 1
-            if sec.factor is not None:
-                a1, a0 = sympy.Poly(sec.factor, s).all_coeffs()
-                if _is_negative(a0 / a1):
-                    sign = -1
-                    w = sec.w0 if sec.w0.is_number else sympy.cancel(-sec.w0)
-            else:
-                r = _root_near(roots, float(sec.w0), 1)
-                sign = -1 if r is not None and r.real > 0 else 1
-            factors.append(NormalFactor(sec.where, 1, w, None, sign, sec.multiplicity))
-        elif sec.order == 2 and sec.w0 is not None:
-            q = sec.q
-            if sec.factor is None and q is not None and q != sympy.oo:
-                r = _root_near(roots, float(sec.w0), 2)
-                if r is not None and r.real > 0:
-                    q = -q
-            factors.append(NormalFactor(sec.where, 2, sec.w0, q, 1, sec.multiplicity))
-        elif sec.factor is not None:
-            f0 = as_expr(sec.factor).subs(s, 0)
-            if f0 == 0:
-                return None
-            poly = sympy.collect(sympy.expand(sympy.cancel(sec.factor / f0)), s)
-            factors.append(NormalFactor(sec.where, sec.order, None, None, 1, sec.multiplicity, poly=poly))
-        else:
-            return None
-        degree[sec.where] += sec.order * sec.multiplicity
-    if degree["zero"] != len(tf.num_coeffs) - 1 or degree["pole"] != len(tf.den_coeffs) - 1:
-        return None  # the sections do not account for every root: no form rather than a wrong one
-    return NormalForm(tf.name, gain, kn - kd, tuple(_named(factors)))
+    zeros, poles = _factors(num, "zero"), _factors(den, "pole")
+    if zeros is None or poles is None:
+        return None
+    return NormalForm(name, sympy.cancel(n_low / d_low), kn - kd, tuple(_named(zeros + poles)))
+
+
+def normal_form(tf) -> NormalForm | None:
+    """The normalized form of an engine ``TransferFunction`` (read from its H(s)), or None.
+
+    >>> from nodeterm.engine.analysis.transfer import transfer_function
+    >>> normal_form(transfer_function(1/(s + 1))).template()
+    'K/(1 + s/wp)'
+    """
+    return normal_form_of(tf.expr, tf.name)
 
 
 def _named(factors: list[NormalFactor]) -> list[NormalFactor]:
@@ -309,32 +367,25 @@ def normal_form_dict(nf: NormalForm, unit=None) -> dict:
             "K_formatted": value_text(nf.gain, k_unit), "origin_power": nf.origin, "factors": factors}
 
 
-def readable_transfer(solution, circuit, transfer: dict | None = None) -> dict:
-    """name -> ``TransferFunction`` of each [find] quantity in s small enough to read.
+def normal_forms(solution, circuit, transfer: dict | None = None) -> dict[str, NormalForm]:
+    """name -> ``NormalForm`` of each [find] quantity in s that has one.
 
-    ``transfer`` (e.g. a study's transfer functions) is used when given; otherwise they are
-    computed here, skipping large results (more than ``MAX_OPS`` operations), which would take
-    long to factor and which nobody reads as a product of factors anyway.
+    ``transfer`` (name -> ``TransferFunction``, e.g. a study's) is read when given; otherwise each
+    result is read directly. Results with more than ``MAX_OPS`` operations are left out: nobody
+    reads them as a product of factors, and factoring them would slow every report.
     """
-    if transfer is not None:
-        return dict(transfer)
-    from nodeterm.engine.analysis.transfer import transfer_function
     out = {}
     for name, v in solution.find.items():
         if name not in circuit.find or getattr(v, "is_large", False):
             continue
+        if transfer is not None and name in transfer:
+            v = transfer[name].expr
+            if getattr(v, "is_large", False):
+                continue
         e = as_expr(v)
         if not e.has(s) or sympy.count_ops(e) > MAX_OPS:
             continue
-        out[name] = transfer_function(e, name)
-    return out
-
-
-def normal_forms(solution, circuit, transfer: dict | None = None) -> dict[str, NormalForm]:
-    """name -> ``NormalForm`` of each [find] quantity in s that has one."""
-    out = {}
-    for name, tf in readable_transfer(solution, circuit, transfer).items():
-        nf = normal_form(tf)
+        nf = normal_form_of(e, name)
         if nf is not None:
             out[name] = nf
     return out

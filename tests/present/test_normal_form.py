@@ -168,3 +168,23 @@ def test_response_text_and_json_carry_the_normalized_form():
     assert d["form"] == "Zt(s) = K/(1 + s/wp)" and d["K"] == "-R"
     assert d["factors"][0]["name"] == "wp" and sympy.simplify(
         sympy.sympify(d["factors"][0]["w"]) - 1 / (R * C)) == 0
+
+
+@pytest.mark.parametrize("path", ["tests/published/sallen_key_lowpass.toml", "circuits/soil_moisture_probe.toml",
+                                  "circuits/vibration_lowpass.toml", "tests/analysis/mfb_bandpass.toml"])
+def test_same_corners_as_the_engine_sections(path):
+    # the engine's TransferFunction reads w0 and Q of the same factors its own way (roots, simplify)
+    c = load_circuit(str(ROOT / path))
+    solution = build_system(c).solve()
+    for name, nf in normal_forms(solution, c).items():
+        tf = transfer_function(solution.find[name], name)
+        for where in ("pole", "zero"):
+            ours = [(_positive(f.w), f.order) for f in nf.factors if f.where == where and f.w is not None]
+            theirs = [(_positive(x.w0), x.order) for x in tf.sections if x.where == where and x.order in (1, 2)]
+            assert len(ours) == len(theirs)
+            for w, order in ours:
+                assert any(o == order and sympy.simplify(w - v) == 0 for v, o in theirs), (w, theirs)
+        for f in nf.factors:
+            if f.order == 2:
+                assert any(x.q is not None and sympy.simplify(_positive(f.q) - _positive(x.q)) == 0
+                           for x in tf.sections), f.q
