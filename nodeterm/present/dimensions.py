@@ -302,6 +302,6 @@ def results_dict(circuit, solution) -> dict:
         "formatted": {
             "node_voltages": {n: value_text(v, volt) for n, v in solution.node_voltages.items()},
             "currents": {n: value_text(v, amp) for n, v in solution.currents.items()},
-            "find": {n: value_text(v, finds.get(n, PLAIN)) for n, v in solution.find.items()},
+            "find": {n: value_text(v, finds.get(n, PLAIN), tag=True) for n, v in solution.find.items()},
         },
     }

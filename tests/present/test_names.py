@@ -7,13 +7,20 @@ from pathlib import Path
 
 import sympy
 
-from nodeterm.engine import build_system, load_circuit
+from nodeterm.engine import load_circuit
 from nodeterm.present.export import render
 from nodeterm.present.format import expr_text, pretty_text
 from nodeterm.present.latex import latex_name, tex
 
 ROOT = Path(__file__).resolve().parents[2]
 SUBSCRIPTS = "₀₁₂₃₄₅₆₇₈₉ₐₑₒₓₔₕₖₗₘₙₚₛₜᵢᵣᵤᵥⱼ"
+
+def _records(circuit, known: bool = False, sets: dict | None = None):
+    """The records the CLI formats (a Study with the values chosen)."""
+    from nodeterm.engine.study import Study
+    from nodeterm.engine.values import ValueChoice
+    return Study(circuit, ValueChoice.from_options(sets, known=known)).records(
+        ("system", "matrix", "solution", "warnings"))
 
 
 def test_multi_letter_names_are_one_symbol_in_latex():
@@ -41,8 +48,7 @@ def test_subscripted_names():
 
 def test_latex_export_has_no_multi_letter_products():
     c = load_circuit(str(ROOT / "circuits" / "soil_moisture_probe.toml"))
-    system = build_system(c)
-    doc = render(system, system.solve(), fmt="latex")
+    doc = render(_records(c), "latex")
     for name in ("Rf", "Rg", "Cf", "Co", "Ro", "Vprobe"):
         assert rf"\mathit{{{name}}}" in doc
     math = "\n".join(ln for ln in doc.splitlines() if "&=" in ln)

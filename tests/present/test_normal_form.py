@@ -12,7 +12,7 @@ from pathlib import Path
 import pytest
 import sympy
 
-from nodeterm.engine import build_system, load_circuit
+from nodeterm.engine import load_circuit
 from nodeterm.engine.analysis.transfer import transfer_function
 from nodeterm.present.analysis import transfer_dict, transfer_lines
 from nodeterm.present.normal_form import normal_form, normal_forms
@@ -20,6 +20,13 @@ from nodeterm.present.text import report
 
 ROOT = Path(__file__).resolve().parents[2]
 s = sympy.Symbol("s")
+
+def _records(circuit, known: bool = False, sets: dict | None = None):
+    """The records the CLI formats (a Study with the values chosen)."""
+    from nodeterm.engine.study import Study
+    from nodeterm.engine.values import ValueChoice
+    return Study(circuit, ValueChoice.from_options(sets, known=known)).records(
+        ("system", "matrix", "solution", "warnings"))
 
 
 def _positive(expr):
@@ -76,7 +83,7 @@ def test_sallen_key_w0_and_q():
     # Franco, Design with Operational Amplifiers, ch. 3, unity-gain Sallen-Key low-pass (from memory):
     # w0 = 1/sqrt(R1 R2 C1 C2), Q = sqrt(R1 R2 C1 C2)/(C2 (R1 + R2))
     c = load_circuit(str(ROOT / "tests" / "published" / "sallen_key_lowpass.toml"))
-    solution = build_system(c).solve()
+    solution = _records(c).solution
     nf = normal_forms(solution, c)["H"]
     R1, R2, C1, C2 = (sympy.Symbol(n, positive=True) for n in ("R1", "R2", "C1", "C2"))
     pole = nf.poles[0]
@@ -90,8 +97,7 @@ def test_butterworth_demo_in_the_report():
     # Cf = 2*Cg with R1 = R2 gives Q = 1/sqrt(2), the Butterworth value (common practice, no source);
     # w0 = 1/(R*sqrt(Cf*Cg)) = 1/(10k*sqrt(20n*10n)) = 7071 rad/s, f0 = 1125 Hz
     c = load_circuit(str(ROOT / "circuits" / "vibration_lowpass.toml"))
-    system = build_system(c).substitute_known()
-    text = report(system, system.solve())
+    text = report(_records(c, known=True))
     assert "      H(s) = K/(s**2/w0**2 + s/(Q*w0) + 1)\n" in text
     assert "w0 = 5000*sqrt(2) (≈ 7.071 krad/s, f ≈ 1.125 kHz), pole pair" in text
     assert "Q  = sqrt(2)/2 (≈ 0.7071)" in text
@@ -175,7 +181,7 @@ def test_response_text_and_json_carry_the_normalized_form():
 def test_same_corners_as_the_engine_sections(path):
     # the engine's TransferFunction reads w0 and Q of the same factors its own way (roots, simplify)
     c = load_circuit(str(ROOT / path))
-    solution = build_system(c).solve()
+    solution = _records(c).solution
     for name, nf in normal_forms(solution, c).items():
         tf = transfer_function(solution.find[name], name)
         for where in ("pole", "zero"):
