@@ -109,16 +109,18 @@ def verdict_lines(verdicts, path: str | None = None) -> list[str]:
             for extra in ("scale", "substituted"):
                 if extra in d:
                     out.append(f"    note:      {d[extra]}")
-            for diff in d.get("differences", [])[1:]:
+            for diff in d.get("differences", [])[2:]:  # the first two are in the headline
                 out.append(f"    also:      {diff}")
             if v.kind == "result":
                 for key in ("ratio", "difference"):
-                    if key in d:
+                    if key in d and f"{key} {d[key]}" not in v.message and f"by {d[key]}" not in v.message:
                         out.append(f"    {key + ':':<10} {d[key]}")
-                ex = d.get("example")
-                if ex:
-                    vals = ", ".join(f"{k} = {val}" for k, val in ex["values"].items())
-                    out.append(f"    example:   with {vals}: claimed {ex['claimed']}, solved {ex['solved']}")
+            ex = d.get("example")
+            if ex:
+                vals = ", ".join(f"{k} = {val}" for k, val in ex.get("values", {}).items())
+                sides = (f"claimed {ex['claimed']}, solved {ex['solved']}" if "claimed" in ex
+                         else f"left side {ex.get('lhs')}, right side {ex.get('rhs')}")
+                out.append(f"    example:   " + (f"with {vals}: " if vals else "") + sides)
     return out
 
 

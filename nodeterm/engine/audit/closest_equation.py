@@ -28,7 +28,7 @@ PRIMARY_KINDS = ("kcl", "supernode_kcl", "source_constraint", "opamp_gain")
 HELPER_KINDS = ("known_voltage", "opamp_equality")
 
 
-def _closest(r, equations, elim, unknowns):
+def _closest(r, equations, elim, unknowns, budget=None):
     """The generated equation closest to a failing claim ``r`` (a residual linear in ``unknowns``).
 
     Returns:
@@ -52,6 +52,8 @@ def _closest(r, equations, elim, unknowns):
         if R is None or not R:
             continue
         for idx, (orig, e) in enumerate(zip(equations, eqs)):
+            if budget is not None:
+                budget.check()
             if mode and e.kind in HELPER_KINDS:
                 continue
             terms = [(t.part, t.expr) for t in e.terms] if e.terms else []

@@ -52,7 +52,7 @@ equations and explains the difference in terms of circuit parts.
 >>> v.status, v.matches
 ('fails', ('KCL at inv',))
 >>> print(v.details["differences"][0])
-sign error on the term from Rb: it is (V_inv - V_out)/R2 (current leaving inv through Rb)
+sign error on the term from Rb; write it as (V_inv - V_out)/R2 (current leaving inv through Rb)
 >>> audit_claim(sys, "gain", "-R1/R2").details["cause"]
 'R1 and R2 are swapped'
 """
@@ -68,13 +68,18 @@ from nodeterm.engine.audit.claim_forms import _ONE, _linear, _r, _t, _zero
 from nodeterm.engine.audit.closest_equation import HELPER_KINDS, PRIMARY_KINDS, _closest
 from nodeterm.engine.circuit.expr import ExpressionError, parse_expression
 from nodeterm.engine.circuit.loader import quantity_resolver
-from nodeterm.engine.audit.result_causes import _NUMERIC_POINTS, _example, _is_zero, _result_cause
+from nodeterm.engine.audit.circuit_facts import CircuitFacts
+from nodeterm.engine.audit.explain import Budget, KclExplainer, OutOfBudget
+from nodeterm.engine.audit.result_causes import (_NUMERIC_POINTS, _decide_zero, _example, _is_zero,
+                                                 _result_cause)
 from nodeterm.engine.equations.procedure import _Context
 from nodeterm.engine.solving.solve import solve_linear
 from nodeterm.engine.symbols import I, V, param
 from nodeterm.engine.solving.solve import solve_system
 
 HOLDS, FAILS, ERROR = "holds", "fails", "error"
+EXPLAIN_BUDGET = 3.0
+"""Seconds a failing claim's explanation may take (its verdict comes first, whatever the budget)."""
 
 
 @dataclass(frozen=True)
@@ -126,7 +131,7 @@ class Auditor:
         solution: its solution; solved here when not given (may raise SolveError).
     """
 
-    def __init__(self, system, solution=None) -> None:
+    def __init__(self, system, solution=None, explain_budget: float | None = EXPLAIN_BUDGET) -> None:
         self.system = system
         c = self.circuit = system.circuit
         self.solution = solution if solution is not None else solve_system(system)
@@ -157,6 +162,10 @@ class Auditor:
                 for e in step.equations:
                     self.step_of.setdefault(e.label, i)
         self._forms = None
+        self._facts = self._explainer = self._known = None
+        self.budget_seconds = explain_budget
+        self.budget = Budget(explain_budget)
+        self.kcl_step = next((i for i, st in enumerate(system.steps, start=1) if st.kind == "kcl"), None)
 
     # --- parsing ------------------------------------------------------------
     def _parse(self, text: str, offset: int, base_column: int | None) -> sympy.Expr:
@@ -190,6 +199,7 @@ class Auditor:
     def check(self, name: str, text: str, line: int | None = None, column: int | None = None) -> Verdict:
         """One verdict for the claim ``name`` written as ``text``."""
         is_result = name in self.circuit.find
+        self.budget = Budget(self.budget_seconds)  # each claim gets its own time to be explained
         kind = "result" if is_result else "equation"
         loc = dict(line=line, column=column, text=text)
         try:
@@ -219,7 +229,7 @@ class Auditor:
                             "write the equation you derived")
         lhs_p, rhs_p = self._prepare(lhs), self._prepare(rhs)
         r = lhs_p - rhs_p
-        holds, method = _is_zero(r.xreplace(self.sol))
+        holds, method = _decide_zero(r, self.sol)
         details: dict = {"claim": text}
         if method == "numeric":
             details["method"] = f"numeric check at {_NUMERIC_POINTS} random points (symbolic simplification inconclusive)"
@@ -248,18 +258,18 @@ class Auditor:
     def _holds(self, name: str, r, details: dict, loc: dict) -> Verdict:
         lin = self._linear_claim(r)
         if _zero(r):
-            return Verdict(name, HOLDS, "equation", "holds: true by the definition of the part currents "
+            return Verdict(name, HOLDS, "equation", "true by the definition of the part currents "
                            "(nothing left once each I_<part> is written in node voltages)", details=details, **loc)
         if lin is None or not self.xs:
             foreign = sorted(map(str, (r.free_symbols & self.quantities) - set(self.xs)))
             why = (f"it involves {', '.join(foreign)}, which the node equations do not contain" if foreign
                    else "not a linear equation in the node voltages")
-            return Verdict(name, HOLDS, "equation", f"holds: satisfied by the exact solution ({why}, so it is "
+            return Verdict(name, HOLDS, "equation", f"satisfied by the exact solution ({why}, so it is "
                            "not matched to a generated equation)", details=details, **loc)
         expr, note = lin
         lam = self._combination(expr)
         if lam is None:
-            return Verdict(name, HOLDS, "equation", "holds: satisfied by the exact solution",
+            return Verdict(name, HOLDS, "equation", "satisfied by the exact solution",
                            details=details, **loc)
         if note:
             details["scale"] = note
@@ -269,20 +279,20 @@ class Auditor:
         details["combination"] = {e.label: _t(k) for e, k in used}
         help_text = ", ".join(f"{_eq_text(e)} ({e.label})" for e, _ in helpers)
         if not used:
-            msg = "holds: true for the substituted parameter values (no node voltage in it)"
+            msg = "true for the substituted parameter values (no node voltage in it)"
             return Verdict(name, HOLDS, "equation", msg, details=details, **loc)
         if len(primary) == 1:
             e, k = primary[0]
-            msg = f"holds: matches {e.label}" + _scale_words(k)
+            msg = f"matches {e.label}" + _scale_words(k)
             if helpers:
                 msg += " after substituting " + help_text
         elif primary:
-            msg = "holds: a combination of " + ", ".join(f"{e.label} (x {_t(k)})" for e, k in primary)
+            msg = "a combination of " + ", ".join(f"{e.label} (x {_t(k)})" for e, k in primary)
             if helpers:
                 msg += ", with " + help_text
         else:
             e, k = helpers[0]
-            msg = f"holds: it is {e.label}" + _scale_words(k) if len(helpers) == 1 else "holds: it follows from " + help_text
+            msg = f"it is {e.label}" + _scale_words(k) if len(helpers) == 1 else "it follows from " + help_text
         main = primary or helpers
         labels = tuple(e.label for e, _ in main)
         step = self.step_of.get(labels[0])
@@ -307,48 +317,223 @@ class Auditor:
         return [sympy.cancel(k) for k in lam]
 
     def _fails(self, name: str, lhs, rhs, r, details: dict, loc: dict) -> Verdict:
-        example = _example(lhs, rhs, self.sol)
-        if example:
-            details["example"] = example
+        """A failing equation: the verdict is settled; explain it within the claim's time budget."""
+        out = {"msg": "not satisfied by the exact solution", "matches": (), "step": None}
+        try:
+            self._explain_equation(name, lhs, rhs, r, details, out)
+        except OutOfBudget:
+            self._stopped(details, out)
+        return Verdict(name, FAILS, "equation", out["msg"], matches=out["matches"], step=out["step"],
+                       details=details, **loc)
+
+    def _stopped(self, details: dict, out: dict) -> None:
+        note = (f"the explanation stopped short after {self.budget.seconds:g} s (its time budget); the verdict "
+                "stands")
+        details["explanation"] = note
+        out["msg"] += "; " + note
+
+    def _explain_equation(self, name, lhs, rhs, r, details: dict, out: dict) -> None:
+        budget = self.budget
+        zero = self._zero_division(lhs, rhs, details)
+        if zero:
+            out["msg"] = zero
+            return
+        known = self._known_hint(name, details)
+        if known:
+            out.update(known)
+            return
+        budget.check()
         lin = self._linear_claim(r)
+        expr = lin[0] if lin is not None else r
+        if lin is not None and lin[1]:
+            details["scale"] = lin[1]
+        found = self.explainer.explain(expr, budget)
+        budget.check()
+        value = self._implied_value(r)
+        if found is not None and (len(found[1]) == 1 or value is None or not value[3]):
+            base, findings, mode = found
+            self._found_details(base, findings, mode, details)
+            step = self.step_of.get(base.equation) if base.equation else self.kcl_step
+            out.update(msg=f"{base.label}: " + "; also ".join(f.sentence() for f in findings),
+                       matches=(base.equation,) if base.equation else (), step=step)
+            self._add_example(lhs, rhs, details)
+            return
         best = None
         if lin is not None:
-            expr, note = lin
-            if note:
-                details["scale"] = note
-            best = _closest(expr, self.equations, self.elim, self.xs)
-        ex = ""
-        if example:
-            vals = ", ".join(f"{k} = {v}" for k, v in example["values"].items())
-            sol = ", ".join(f"{k} = {v}" for k, v in example.get("solution", {}).items())
-            ex = "; e.g. " + (f"with {vals}" if vals else "") + (f" (so {sol})" if sol else "") + \
-                f": left side {example['lhs']}, right side {example['rhs']}"
-        value = self._implied_value(r)
+            best = _closest(lin[0], self.equations, self.elim, self.xs, budget)
+        budget.check()
         if value is not None:
             x, implied, actual, cause = value
             details.update({"quantity": str(x), "claimed": _r(implied), "solved": _r(actual)})
+            cause = self._node_value_cause(x, implied, actual) or cause
             if cause:
                 details["cause"] = cause
-            if cause or best is None or best[4] >= 2:
-                msg = f"fails: it gives {x} = {_r(implied)}, the solution has {x} = {_r(actual)}"
+            if cause or best is None or best[4] >= 2 or best[0].kind not in ("kcl", "supernode_kcl"):
+                msg = f"it gives {x} = {_r(implied)}, the solution has {x} = {_r(actual)}"
                 msg += f"; likely cause: {cause}" if cause else ""
                 if best is not None:
                     self._closest_details(best, details)
-                return Verdict(name, FAILS, "equation", msg + ex, matches=(best[0].label,) if best else (),
-                               step=self.step_of.get(best[0].label) if best else None, details=details, **loc)
+                out.update(msg=msg, matches=(best[0].label,) if best else (),
+                           step=self.step_of.get(best[0].label) if best else None)
+                self._add_example(lhs, rhs, details)
+                return
         if best is None:
-            return Verdict(name, FAILS, "equation", "fails: not satisfied by the solution and not close to any "
-                           "generated equation" + ex, details=details, **loc)
+            out["msg"] = ("not satisfied by the exact solution, and no generated equation is close to it "
+                          "(compare it with the steps of `nodeterm solve`)")
+            self._add_example(lhs, rhs, details)
+            return
         e, diffs, step, used = self._closest_details(best, details)
         where = f" (step {step})" if step else ""
         if used:
             where = f" (step {step}, with {', '.join(used)})" if step else f" (with {', '.join(used)})"
-        msg = f"fails: closest to {e.label}{where}: {diffs[0]}" + (f" (+{len(diffs) - 1} more)" if len(diffs) > 1 else "")
-        return Verdict(name, FAILS, "equation", msg + ex, matches=(e.label,), step=step, details=details, **loc)
+        msg = f"closest to {e.label}{where}: {diffs[0]}"
+        if len(diffs) > 1:
+            msg += f"; also {diffs[1]}" + (f" (+{len(diffs) - 2} more)" if len(diffs) > 2 else "")
+        out.update(msg=msg, matches=(e.label,), step=step)
+        self._add_example(lhs, rhs, details)
+
+    def _add_example(self, lhs, rhs, details: dict) -> None:
+        self.budget.check()
+        example = _example(lhs, rhs, self.sol)
+        if example:
+            details["example"] = example
+
+    def _found_details(self, base, findings, mode, details: dict) -> None:
+        details["node"] = base.node
+        details["parts"] = sorted({p for f in findings for p in f.parts})
+        details["causes"] = [f.cause for f in findings]
+        details["fix"] = [f.fix for f in findings]
+        details["differences"] = [f.sentence() for f in findings]
+        if base.equation:
+            e = next(e for e in self.equations if e.label == base.equation)
+            details["closest"] = e.label
+            details["closest_equation"] = f"{_t(e.lhs)} = {_t(e.rhs)}"
+        else:
+            details["closest"] = base.label + " (not written by the procedure)"
+        used = [f"{_t(x)} = {_t(v)}" for x, v in mode.items()
+                if any(t.has(x) for _, t in base.terms)]
+        if used:
+            details["substituted"] = "compared after substituting " + ", ".join(used)
+
+    # --- circuit facts behind a failing claim ---------------------------------------------
+    @property
+    def facts(self):
+        if self._facts is None:
+            self._facts = CircuitFacts(self.system)
+        return self._facts
+
+    @property
+    def explainer(self):
+        if self._explainer is None:
+            self._explainer = KclExplainer(self.system, self.facts, self.pvals)
+        return self._explainer
+
+    def _zero_division(self, lhs, rhs, details: dict) -> str | None:
+        """When a side divides by a node voltage that is 0 at the solution: why, with an example."""
+        zeros = []
+        for side in (lhs, rhs):
+            _, den = sympy.fraction(sympy.together(side))
+            for x in sorted(den.free_symbols & set(self.sol), key=str):
+                if _zero(as_expr(self.sol[x])) and x not in zeros:
+                    zeros.append(x)
+        if not zeros:
+            return None
+        x = zeros[0]
+        node = str(x)[2:] if str(x).startswith("V_") else None
+        why = f"{x} = 0 at the solution"
+        if node is not None:
+            reason = self._why_zero(node)
+            if reason:
+                why += f" ({reason})"
+        details["divides_by"] = str(x)
+        details["cause"] = f"divides by {x}, which is 0"
+        ex = _example(lhs * 0, rhs * 0, self.sol)  # the parameter values only
+        vals = ", ".join(f"{k} = {v}" for k, v in (ex or {}).get("values", {}).items())
+        details["example"] = {"values": (ex or {}).get("values", {}), "lhs": "division by zero" if
+                              lhs.has(x) else _t(lhs), "rhs": "division by zero" if rhs.has(x) else _t(rhs)}
+        return (f"it divides by {x}, but {why}, so the claim cannot hold as written"
+                + (f" (e.g. with {vals} it divides by {x} = 0)" if vals else "")
+                + f"; multiply both sides by {x}, or write the relation without dividing by it")
+
+    def _why_zero(self, node: str) -> str:
+        f = self.facts
+        for op, sign in f.inputs_at(node):
+            p = f.parts[op]
+            other = p.plus if sign == "-" else p.minus
+            val = f.voltage(other)
+            if other == self.circuit.reference or (val is not None and _zero(val)):
+                return (f"{op} holds its {sign} input at node {node} equal to its "
+                        f"{'+' if sign == '-' else '-'} input at {other}, which is at 0 V: a virtual ground")
+        d = f.driver(node)
+        if d is not None:
+            return f"node {node} is fixed by {d.part}"
+        return ""
+
+    def _node_value_cause(self, x, implied, actual) -> str:
+        """For a claim V_n = value where n is an op-amp input: which node the other input is at."""
+        name = str(x)
+        if not name.startswith("V_"):
+            return ""
+        node = name[2:]
+        f = self.facts
+        for op, sign in f.inputs_at(node):
+            p = f.parts[op]
+            other = p.plus if sign == "-" else p.minus
+            val = f.voltage(other)
+            words = (f"{op} holds V_{node} equal to its {'+' if sign == '-' else '-'} input, at node {other}"
+                     + (f" where V_{other} = {_r(val)}" if val is not None else ""))
+            if _zero(implied) and not _zero(actual):
+                return f"V_{node} taken as 0 (a virtual ground), but {words}; use V_{node} = V_{other}"
+            return ""
+        return ""
+
+    def _has_numbers(self, text: str) -> bool:
+        """The claim carries numbers of its own (component values), not just small factors."""
+        try:
+            expr = parse_expression(text.replace("=", "-(") + (")" if "=" in text else ""), self.resolve)
+        except (ExpressionError, _BadClaim):
+            return False
+        for a in sympy.preorder_traversal(expr):
+            if isinstance(a, sympy.Float):
+                return True
+            if isinstance(a, sympy.Rational) and (abs(a.p) > 20 or a.q > 20):
+                return True
+        return False
+
+    def _known_hint(self, name: str, details: dict) -> dict | None:
+        """A claim with numbers in a circuit whose values were not substituted: check it with them."""
+        c = self.circuit
+        unsubstituted = [n for n, p in c.parameters.items() if p.value is not None and n not in self.system.values]
+        text = details.get("claim", "")
+        if not unsubstituted or not self._has_numbers(text):
+            return None
+        self.budget.check()
+        if self._known is None:
+            self._known = Auditor(self.system.substitute_known(), explain_budget=self.budget_seconds)
+        left = self.budget.remaining()
+        self._known.budget_seconds = max(left, 0.1) if left is not None else None
+        v = self._known.check(name, text)
+        details["with_known"] = {"status": v.status, "message": v.message}
+        hint = ("the claim has numbers, but the parameters are still symbols: check it with the file's values "
+                "(`nodeterm check FILE --known`, or --set NAME=VALUE for some)")
+        details["cause"] = "numbers in the claim, values not substituted"
+        details["fix"] = [hint]
+        if v.status == HOLDS:
+            return {"msg": f"{hint}; with them it holds ({v.message})", "matches": v.matches, "step": v.step}
+        for key in ("node", "parts", "causes", "differences", "closest", "closest_equation", "example"):
+            if key in v.details:
+                details[key] = v.details[key]
+        return {"msg": f"{hint}; with them it still fails: {v.message}", "matches": v.matches, "step": v.step}
 
     def _implied_value(self, r):
         """For a claim about one quantity (e.g. V_p = ...): (symbol, claimed value, solved value, cause)."""
         qs = sorted(r.free_symbols & set(self.sol), key=str)
+        if len(qs) > 1:  # known voltages (V_in = Vin) are not what the claim is about
+            known = {V(n) for n in self.facts.known}  # fixed by sources, not by an op-amp's equality
+            fixed = {x: v for x, v in self.elim.items() if x in qs and x in known}
+            if len(qs) - len(fixed) == 1:
+                r = r.xreplace(fixed)
+                qs = sorted(r.free_symbols & set(self.sol), key=str)
         if len(qs) != 1:
             return None
         x = qs[0]
@@ -358,7 +543,8 @@ class Auditor:
         implied = sympy.cancel(-form.get(_ONE, 0) / form[x])
         actual = self.sol[x]
         ratio = sympy.cancel(implied / actual) if actual != 0 else None
-        return x, implied, actual, _result_cause(implied, actual, ratio, sympy.cancel(implied - actual))
+        return x, implied, actual, _result_cause(implied, actual, ratio, sympy.cancel(implied - actual),
+                                                 self.budget.check)
 
     def _closest_details(self, best, details: dict):
         e, k, diffs, mode, _ = best
@@ -390,35 +576,51 @@ class Auditor:
         expr = self._parse(text_expr, offset, column)
         claimed = self._prepare(expr).xreplace(self.sol)
         solved = self.solution.find[name]
-        holds, method = _is_zero(claimed - solved)
+        holds, method = _decide_zero(claimed - solved)
         details = {"claim": text, "claimed": _r(claimed), "solved": _r(solved),
                    "method": "symbolic" if method == "symbolic" else
                    f"numeric check at {_NUMERIC_POINTS} random points (symbolic simplification inconclusive)"}
         if holds:
             how = "" if method == "symbolic" else f" (numeric check at {_NUMERIC_POINTS} random points; " \
                 "symbolic simplification was inconclusive)"
-            return Verdict(name, HOLDS, "result", f"holds: equals the solved {name} = {_r(solved)}{how}",
+            return Verdict(name, HOLDS, "result", f"equals the solved {name} = {_r(solved)}{how}",
                            details=details, **loc)
+        out = {"msg": f"claimed {_r(claimed)}, solved {_r(solved)}"}
+        try:
+            self._explain_result(name, expr, claimed, solved, details, out)
+        except OutOfBudget:
+            self._stopped(details, out)
+        return Verdict(name, FAILS, "result", out["msg"], details=details, **loc)
+
+    def _explain_result(self, name, expr, claimed, solved, details: dict, out: dict) -> None:
+        known = self._known_hint(name, details)
+        if known:
+            out["msg"] = known["msg"]
+            return
+        self.budget.check()
         ratio = sympy.cancel(claimed / solved) if solved != 0 else None
         diff = sympy.cancel(claimed - solved)
         if ratio is not None and (ratio.is_number or sympy.count_ops(ratio) <= sympy.count_ops(diff)):
             details["ratio"] = _r(ratio)
+        self.budget.check()
         details["difference"] = _r(sympy.factor(diff))
-        cause = _result_cause(claimed, solved, ratio, diff)
+        self.budget.check()
+        cause = _result_cause(claimed, solved, ratio, diff, self.budget.check)
         if cause:
             details["cause"] = cause
+        msg = out["msg"]
+        if cause:
+            msg += f"; likely cause: {cause}"
+        elif "ratio" in details and ratio.is_number:
+            msg += f"; ratio {details['ratio']}"
+        else:
+            msg += f"; they differ by {details['difference']}"
+        out["msg"] = msg
+        self.budget.check()
         example = _example(self._prepare(expr), solved, self.sol)
         if example:
             example = {**example, "claimed": example.pop("lhs"), "solved": example.pop("rhs")}
             details["example"] = example
-        msg = f"fails: claimed {_r(claimed)}, solved {_r(solved)}"
-        if cause:
-            msg += f"; likely cause: {cause}"
-        elif ratio is not None and ratio.is_number:
-            msg += f"; ratio {_r(ratio)}"
-        else:
-            msg += f"; difference {details['difference']}"
-        return Verdict(name, FAILS, "result", msg, details=details, **loc)
 
 
 # --- helpers -----------------------------------------------------------------------
@@ -439,27 +641,30 @@ def _scale_words(k) -> str:
 
 # --- module entry points ---------------------------------------------------------------
 def audit_claim(system, name: str, text: str, *, solution=None, line: int | None = None,
-                column: int | None = None) -> Verdict:
+                column: int | None = None, explain_budget: float | None = EXPLAIN_BUDGET) -> Verdict:
     """Check one claim (e.g. typed in the UI). ``name`` equal to a ``[find]`` name means a claimed result.
 
     Raises:
         SolveError: when the circuit itself cannot be solved.
     """
-    return Auditor(system, solution).check(name, text, line, column)
+    return Auditor(system, solution, explain_budget).check(name, text, line, column)
 
 
-def audit_claims(system, claims: dict[str, str] | None = None, *, solution=None) -> list[Verdict]:
+def audit_claims(system, claims: dict[str, str] | None = None, *, solution=None,
+                 explain_budget: float | None = EXPLAIN_BUDGET) -> list[Verdict]:
     """One verdict per claim, in order.
 
     Args:
         system: the recorded system (with any parameter substitutions).
         claims: name -> text; None means the circuit's ``[hand]`` table (with file lines and columns).
         solution: the system's solution if already computed.
+        explain_budget: seconds each failing claim's explanation may take (None or 0: no limit). The
+            verdict itself never waits for it; an explanation cut short says so.
 
     Raises:
         SolveError: when the circuit itself cannot be solved.
     """
-    auditor = Auditor(system, solution)
+    auditor = Auditor(system, solution, explain_budget)
     if claims is None:
         return [auditor.check(h.name, h.text, h.line, h.column) for h in system.circuit.hand.values()]
     return [auditor.check(n, t) for n, t in claims.items()]
