@@ -119,7 +119,8 @@ def main(argv: list[str] | None = None) -> int:
                 raise
             print(f"nodeterm: {getattr(args, 'file', '')}: error: the exact work did not finish "
                   f"within {limit:g} s; substitute values (--known, --set NAME=VALUE) to shrink the algebra, "
-                  "use --numeric, or raise --time-limit", file=sys.stderr)
+                  + ("use --numeric, " if hasattr(args, "numeric") else "")  # only where the command has it
+                  + "or raise --time-limit", file=sys.stderr)
             return 2
     except InputError as err:
         print(f"nodeterm: {err}", file=sys.stderr)

@@ -16,7 +16,7 @@ from __future__ import annotations
 import json
 import sys
 
-from nodeterm.cli_common import add_common, strict_status, study_from
+from nodeterm.cli_common import EXPLAIN_BUDGET, add_common, strict_status, study_from
 from nodeterm.engine.errors import InputError
 from nodeterm.present.export import FORMATS, render, write_atomic
 
@@ -31,6 +31,9 @@ def add_parsers(sub) -> None:
                                      "(exit 0 all hold, 1 any fails, 2 bad input)")
     add_common(p)
     p.add_argument("--json", action="store_true", help="print the verdicts as one JSON object")
+    p.add_argument("--explain-time", type=float, default=EXPLAIN_BUDGET, metavar="SECONDS",
+                   help=f"time each failing claim's explanation may take (default {EXPLAIN_BUDGET:g}; "
+                        "the verdicts never wait for it)")
     p = sub.add_parser("export", help="write the steps, equations, matrix, results and audit in a format")
     add_common(p)
     p.add_argument("--to", required=True, choices=FORMATS, metavar="FORMAT",
@@ -49,7 +52,10 @@ def cmd_check(args) -> int:
         raise InputError("no claims to check: the file has no [hand] table",
                          hint='add [hand] with your equations, e.g. kcl_inv = "(V_inv - V_in)/R1 + '
                               '(V_inv - V_out)/R2 = 0" (see docs/circuit-file.md)', file=circuit.path)
-    records = study.records(CHECK_RECORDS)
+    try:
+        records = study.records(CHECK_RECORDS)
+    except InputError as err:
+        raise without_numeric(err) from None
     if args.json:
         print(json.dumps(check_dict(records), indent=2, ensure_ascii=False))
     else:
@@ -58,9 +64,21 @@ def cmd_check(args) -> int:
     return strict_status(args, records.warnings, exit_status(records.verdicts))
 
 
+def without_numeric(err: InputError) -> InputError:
+    """``check`` and ``export`` have no --numeric: a solver's hint must not suggest it there."""
+    if err.hint and "--numeric" in err.hint:
+        err.hint = (err.hint.replace(", or solve in double precision with --numeric", "")
+                    .replace("with --numeric", "with `nodeterm solve --numeric`"))
+    return err
+
+
 def cmd_export(args) -> int:
     study = study_from(args)
-    records = study.records(JSON_EXPORT_RECORDS if args.to == "json" else EXPORT_RECORDS, budgets=EXPORT_BUDGETS)
+    try:
+        records = study.records(JSON_EXPORT_RECORDS if args.to == "json" else EXPORT_RECORDS,
+                                budgets=EXPORT_BUDGETS)
+    except InputError as err:
+        raise without_numeric(err) from None
     fmt = "ascii" if args.ascii and args.to == "text" else args.to
     text = render(records, fmt)
     if args.output:

@@ -49,7 +49,7 @@ def choice_from(args) -> ValueChoice:
 def study_from(args, exact: bool = True) -> Study:
     """Load the file and make the study the common options ask for (bad input raises InputError)."""
     from nodeterm.engine.values import COMMAND_LINE, parse_values
-    study = Study.from_file(args.file, choice_from(args), exact=exact, explain_budget=EXPLAIN_BUDGET)
+    study = Study.from_file(args.file, choice_from(args), exact=exact, explain_budget=getattr(args, "explain_time", EXPLAIN_BUDGET))
     parse_values(study.circuit, study.choice.set_items, COMMAND_LINE)  # a bad --set is reported before any work
     return study
 
