@@ -14,7 +14,7 @@ is SymPy's.
 >>> from nodeterm.engine.equations.system import build_system
 >>> c = parse_circuit('''
 ... [parts]
-... Vs = { kind = "vsource", nodes = ["in", "gnd"], value = "Vin" }
+... Vs = { kind = "voltage_source", nodes = ["in", "gnd"], value = "Vin" }
 ... R1 = { kind = "resistor", nodes = ["in", "inv"], value = "R1" }
 ... R2 = { kind = "resistor", nodes = ["inv", "out"], value = "R2" }
 ... U1 = { kind = "opamp", plus = "gnd", minus = "inv", out = "out" }

@@ -14,9 +14,9 @@ does the algebra.
 >>> from nodeterm.engine.symbols import param
 >>> R1, R2 = param("R1"), param("R2")
 >>> _result_cause(-R1/R2, R1/R2, sympy.Integer(-1), -2*R1/R2)
-'sign error (the claim is the negative of the result)'
+'sign error (the claim is the negative of the result): change its sign'
 >>> _result_cause(R2/R1 + 1, R1/R2 + 1, None, R2/R1 - R1/R2)
-'R1 and R2 are swapped'
+'R1 and R2 are swapped: swap them back'
 >>> _is_zero(sympy.sqrt(R1**2) - R1)
 (True, 'numeric')
 """
@@ -88,11 +88,12 @@ def _result_cause(claimed, solved, ratio, diff, check=None) -> str:
     check = check or (lambda: None)
     if ratio is not None:
         if ratio == -1:
-            return "sign error (the claim is the negative of the result)"
+            return "sign error (the claim is the negative of the result): change its sign"
         if ratio in (2, sympy.Rational(1, 2), -2, -sympy.Rational(1, 2)):
-            return f"a factor of {_t(ratio)}" + (" and a sign error" if ratio < 0 else "")
+            return (f"a factor of {_t(ratio)}" + (" and a sign error" if ratio < 0 else "")
+                    + ": look for a term counted twice or halved, and write it once")
         if ratio.is_number:
-            return f"a constant factor of {_t(ratio)}"
+            return f"a constant factor of {_t(ratio)}: look for the number it comes from and remove it"
     params = sorted((claimed.free_symbols | solved.free_symbols) - {sympy.Symbol("s")}, key=str)
     params = params[:12]  # a few dozen pairs at most
     for i, a in enumerate(params):
@@ -100,19 +101,24 @@ def _result_cause(claimed, solved, ratio, diff, check=None) -> str:
         for b in params[i + 1:]:
             swapped = claimed.xreplace({a: b, b: a})
             if _same(swapped, solved):
-                return f"{a} and {b} are swapped"
+                return f"{a} and {b} are swapped: swap them back"
             if _same(swapped, -solved):
-                return f"{a} and {b} are swapped, and the sign is wrong"
+                return f"{a} and {b} are swapped, and the sign is wrong: swap them back and change the sign"
+    for a in params:
+        if a in claimed.free_symbols:
+            for shifted, words in ((a + 1, f"1 + {a}"), (a - 1, f"{a} - 1")):
+                if _same(claimed.xreplace({a: shifted}), solved):
+                    return f"{a} written where {words} belongs: write {words}"
     if claimed != 0 and solved != 0 and _same(claimed * solved, 1):
-        return "upside down (the claim is 1 over the result)"
+        return "upside down (the claim is 1 over the result): invert it"
     for a in params:
         check()
         for b in params:
             if a != b and a in claimed.free_symbols and _same(claimed.xreplace({a: b}), solved):
-                return f"{a} written where {b} belongs"
+                return f"{a} written where {b} belongs: write {b} there"
     check()
     if diff.is_number:
-        return f"off by a constant {_t(diff)} (e.g. a missing '1 +')" if abs(diff) == 1 else ""
+        return f"off by a constant {_t(diff)} (e.g. a missing '1 +'): add the 1" if abs(diff) == 1 else ""
     s = sympy.Symbol("s")
     if claimed.has(s) or solved.has(s):
         return _s_coefficient_cause(claimed, solved)
@@ -120,7 +126,8 @@ def _result_cause(claimed, solved, ratio, diff, check=None) -> str:
     for f in sympy.Mul.make_args(num):
         if isinstance(f, sympy.Add) and len(f.args) == 2 and f.free_symbols <= set(params) and _matching(f):
             a, b = f.args
-            return f"the two agree only when {_r(a)} = {_r(-b)} (a matched-ratio formula used for unmatched parts?)"
+            return (f"the two agree only when {_r(a)} = {_r(-b)} (a matched-ratio formula used for unmatched parts?): "
+                    "use the general result, or choose the parts so that they match")
     return ""
 
 
@@ -164,7 +171,8 @@ def _s_coefficient_cause(claimed, solved) -> str:
     kc, ks = 1 / low_c, 1 / low_s
     if pc.degree() != ps.degree():
         return (f"the claimed denominator is of order {pc.degree()} in s, the solved one of order {ps.degree()}: "
-                f"{'a stage or a capacitor is left out' if pc.degree() < ps.degree() else 'an extra pole'}")
+                f"{'a stage or a capacitor is left out' if pc.degree() < ps.degree() else 'an extra pole'}; write the "
+                "full transfer function of every stage")
     out = []
     for what, a, b in (("denominator", pc, ps), ("numerator", qc, qs)):
         deg = max(a.degree(), b.degree())
@@ -178,7 +186,7 @@ def _s_coefficient_cause(claimed, solved) -> str:
             extra = sorted(map(str, y.free_symbols - x.free_symbols))
             dep = f"; the solved one depends on {', '.join(extra)}, the claimed one does not" if extra else ""
             out.append(f"the {what}'s {name}{role} differs: claimed {_r(x)}, solved {_r(y)}{dep}")
-    return "; ".join(out[:2])
+    return "; ".join(out[:2]) + ("; write the solved coefficient" if out else "")
 
 
 

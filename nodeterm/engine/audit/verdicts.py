@@ -54,7 +54,7 @@ equations and explains the difference in terms of circuit parts.
 >>> print(v.details["differences"][0])
 sign error on the term from Rb; write it as (V_inv - V_out)/R2 (current leaving inv through Rb)
 >>> audit_claim(sys, "gain", "-R1/R2").details["cause"]
-'R1 and R2 are swapped'
+'R1 and R2 are swapped: swap them back'
 """
 
 from __future__ import annotations
@@ -347,10 +347,20 @@ class Auditor:
         expr = lin[0] if lin is not None else r
         if lin is not None and lin[1]:
             details["scale"] = lin[1]
+        polarity = self._polarity(r)
+        if polarity:
+            out.update(polarity)
+            self._add_example(lhs, rhs, details)
+            return
         found = self.explainer.explain(expr, budget)
         budget.check()
         value = self._implied_value(r)
-        if found is not None and (len(found[1]) == 1 or value is None or not value[3]):
+        node_cause = self._node_value_cause(*value[:3]) if value is not None else ""
+        if node_cause:
+            value = value[:3] + (node_cause,)
+        # a claim about one node's value (V_m = 0) is explained by what sets that node; otherwise a slip
+        # in a KCL wins, unless it takes two slips and the value has a simple cause (R3, R4 swapped)
+        if found is not None and not node_cause and (len(found[1]) == 1 or value is None or not value[3]):
             base, findings, mode = found
             self._found_details(base, findings, mode, details)
             step = self.step_of.get(base.equation) if base.equation else self.kcl_step
@@ -365,7 +375,6 @@ class Auditor:
         if value is not None:
             x, implied, actual, cause = value
             details.update({"quantity": str(x), "claimed": _r(implied), "solved": _r(actual)})
-            cause = self._node_value_cause(x, implied, actual) or cause
             if cause:
                 details["cause"] = cause
             if cause or best is None or best[4] >= 2 or best[0].kind not in ("kcl", "supernode_kcl"):
@@ -487,6 +496,61 @@ class Auditor:
             return ""
         return ""
 
+    def _cause(self, claimed, solved, ratio, diff) -> str:
+        """The likely cause of a wrong value: one source's contribution first, then the algebraic slips."""
+        if ratio is None or not ratio.is_number:
+            src = self._source_cause(claimed, solved, diff)
+            if src:
+                return src
+        return _result_cause(claimed, solved, ratio, diff, self.budget.check)
+
+    def _source_cause(self, claimed, solved, diff) -> str:
+        """By superposition: the whole difference lies in one independent source's contribution."""
+        sources = [p for p in self.circuit.parts if (getattr(p, "independent", False) or p.kind == "current_source")
+                   and p.value is not None and solved.has(p.value.xreplace(self.pvals))]
+        if len(sources) < 2:
+            return ""  # with one source, its contribution is the whole result: nothing to single out
+        for p in sources:
+            v = p.value.xreplace(self.pvals) if p.value is not None else None
+            if not isinstance(v, sympy.Symbol) or not diff.has(v):
+                continue
+            self.budget.check()
+            if not _zero(diff.xreplace({v: sympy.Integer(0)})):
+                continue
+            want = sympy.factor(sympy.cancel(solved - solved.xreplace({v: sympy.Integer(0)})))
+            got = sympy.cancel(claimed - claimed.xreplace({v: sympy.Integer(0)}))
+            if _zero(got):
+                return (f"the contribution of {p.id} ({v}) is missing: add {_r(want)} "
+                        f"(superposition: the result with only {p.id} on)")
+            if _zero(got + want):
+                return f"the contribution of {p.id} ({v}) has the wrong sign: change it to {_r(want)}"
+        return ""
+
+    def _polarity(self, r) -> dict | None:
+        """A source constraint written with the source reversed (V_b - V_a = value for V_a - V_b = value)."""
+        ref = self.circuit.reference
+        rr = r.xreplace(self.pvals)
+        for e in self.equations:
+            if e.kind not in ("source_constraint", "known_voltage") or len(e.parts) != 1:
+                continue
+            p = self.facts.parts[e.parts[0]]
+            if p.branch(ref) is None or p.kind == "opamp":
+                continue
+            a, b = p.nodes[0], p.nodes[1]
+            va = sympy.Integer(0) if a == ref else V(a)
+            vb = sympy.Integer(0) if b == ref else V(b)
+            if not getattr(p, "independent", False):
+                continue
+            emf = p.value.xreplace(self.pvals)
+            reversed_ = vb - va - emf
+            ratio = sympy.cancel(rr / reversed_)
+            if ratio == 0 or ratio.free_symbols & set(self.quantities):
+                continue
+            return {"msg": (f"sign error: {p.id}'s polarity is reversed; {p.id} makes V_{a} - V_{b} = {_t(emf)} "
+                            f"(its first node, {a}, is the + terminal); write {_t(va - vb)} = {_t(emf)}"),
+                    "matches": (e.label,), "step": self.step_of.get(e.label)}
+        return None
+
     def _has_numbers(self, text: str) -> bool:
         """The claim carries numbers of its own (component values), not just small factors."""
         try:
@@ -543,8 +607,7 @@ class Auditor:
         implied = sympy.cancel(-form.get(_ONE, 0) / form[x])
         actual = self.sol[x]
         ratio = sympy.cancel(implied / actual) if actual != 0 else None
-        return x, implied, actual, _result_cause(implied, actual, ratio, sympy.cancel(implied - actual),
-                                                 self.budget.check)
+        return x, implied, actual, self._cause(implied, actual, ratio, sympy.cancel(implied - actual))
 
     def _closest_details(self, best, details: dict):
         e, k, diffs, mode, _ = best
@@ -605,7 +668,7 @@ class Auditor:
         self.budget.check()
         details["difference"] = _r(sympy.factor(diff))
         self.budget.check()
-        cause = _result_cause(claimed, solved, ratio, diff, self.budget.check)
+        cause = self._cause(claimed, solved, ratio, diff)
         if cause:
             details["cause"] = cause
         msg = out["msg"]
