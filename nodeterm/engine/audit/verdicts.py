@@ -70,6 +70,7 @@ from nodeterm.engine.circuit.expr import ExpressionError, parse_expression
 from nodeterm.engine.circuit.loader import quantity_resolver
 from nodeterm.engine.audit.circuit_facts import CircuitFacts
 from nodeterm.engine.audit.explain import Budget, KclExplainer, OutOfBudget
+from nodeterm.engine.budget import OutOfBudget as TimerOut, budget as time_budget
 from nodeterm.engine.audit.result_causes import (_NUMERIC_POINTS, _decide_zero, _example, _is_zero,
                                                  _result_cause)
 from nodeterm.engine.equations.procedure import _Context
@@ -319,12 +320,24 @@ class Auditor:
     def _fails(self, name: str, lhs, rhs, r, details: dict, loc: dict) -> Verdict:
         """A failing equation: the verdict is settled; explain it within the claim's time budget."""
         out = {"msg": "not satisfied by the exact solution", "matches": (), "step": None}
-        try:
-            self._explain_equation(name, lhs, rhs, r, details, out)
-        except OutOfBudget:
-            self._stopped(details, out)
+        self._within_budget(lambda: self._explain_equation(name, lhs, rhs, r, details, out), details, out)
         return Verdict(name, FAILS, "equation", out["msg"], matches=out["matches"], step=out["step"],
                        details=details, **loc)
+
+    def _within_budget(self, explain, details: dict, out: dict) -> None:
+        """Run ``explain`` within the claim's budget: checked between steps (:class:`.explain.Budget`) and,
+        in the main thread, enforced by the engine's timer (:mod:`nodeterm.engine.budget`), so one long
+        SymPy call cannot hold the verdict back either."""
+        token = None
+        try:
+            with time_budget(self.budget.remaining()) as token:
+                explain()
+        except OutOfBudget:
+            self._stopped(details, out)
+        except TimerOut as exc:
+            if exc.token is not token:
+                raise  # an outer budget ran out: not ours to report
+            self._stopped(details, out)
 
     def _stopped(self, details: dict, out: dict) -> None:
         note = (f"the explanation stopped short after {self.budget.seconds:g} s (its time budget); the verdict "
@@ -649,10 +662,7 @@ class Auditor:
             return Verdict(name, HOLDS, "result", f"equals the solved {name} = {_r(solved)}{how}",
                            details=details, **loc)
         out = {"msg": f"claimed {_r(claimed)}, solved {_r(solved)}"}
-        try:
-            self._explain_result(name, expr, claimed, solved, details, out)
-        except OutOfBudget:
-            self._stopped(details, out)
+        self._within_budget(lambda: self._explain_result(name, expr, claimed, solved, details, out), details, out)
         return Verdict(name, FAILS, "result", out["msg"], details=details, **loc)
 
     def _explain_result(self, name, expr, claimed, solved, details: dict, out: dict) -> None:
