@@ -469,12 +469,21 @@ class Auditor:
                 why += f" ({reason})"
         details["divides_by"] = str(x)
         details["cause"] = f"divides by {x}, which is 0"
-        ex = _example(lhs * 0, rhs * 0, self.sol)  # the parameter values only
-        vals = ", ".join(f"{k} = {v}" for k, v in (ex or {}).get("values", {}).items())
-        details["example"] = {"values": (ex or {}).get("values", {}), "lhs": "division by zero" if
-                              lhs.has(x) else _t(lhs), "rhs": "division by zero" if rhs.has(x) else _t(rhs)}
+        used = sorted((lhs.free_symbols | rhs.free_symbols) & set(self.sol), key=str)
+        syms = sorted(set().union(*(as_expr(self.sol[u]).free_symbols for u in used),
+                                  (lhs.free_symbols | rhs.free_symbols) - set(self.sol)) - {x}, key=str)
+        primes = [2, 3, 5, 7, 11, 13, 17, 19, 23, 29, 31, 37]
+        point = {y: sympy.Integer(primes[i % len(primes)]) for i, y in enumerate(syms)}
+        at = {str(u): _t(sympy.cancel(as_expr(self.sol[u]).xreplace(point))) for u in used}
+        values = {str(k): _t(v) for k, v in point.items()}
+        vals = ", ".join(f"{k} = {v}" for k, v in values.items())
+        sol_text = ", ".join(f"{k} = {v}" for k, v in at.items())
+        details["example"] = {"values": values, "solution": at,
+                              "lhs": "division by zero" if lhs.has(x) else _t(lhs.xreplace(self.sol).xreplace(point)),
+                              "rhs": "division by zero" if rhs.has(x) else _t(rhs.xreplace(self.sol).xreplace(point))}
+        vals = (f"with {vals}: " if vals else "") + sol_text
         return (f"it divides by {x}, but {why}, so the claim cannot hold as written"
-                + (f" (e.g. with {vals} it divides by {x} = 0)" if vals else "")
+                + f" (e.g. {vals}, so it divides by 0)"
                 + f"; multiply both sides by {x}, or write the relation without dividing by it")
 
     def _why_zero(self, node: str) -> str:
