@@ -59,7 +59,7 @@ class Driver:
 class CircuitFacts:
     """Connectivity facts of one system's circuit (built once per audit)."""
 
-    def __init__(self, system) -> None:
+    def __init__(self, system, solution=None) -> None:
         c = self.circuit = system.circuit
         self.reference = c.reference
         self.parts = {p.id: p for p in c.parts}
@@ -93,6 +93,7 @@ class CircuitFacts:
         self.known = {n: v for n, v in data.get("known", {}).items()}
         self.eliminated = dict(system.eliminated)
         self.skipped = dict(system.skipped)
+        self.solved = dict(solution.node_voltages) if solution is not None else {}
 
     # --- parts and nodes ------------------------------------------------------
     def touching(self, node: str) -> tuple[str, ...]:
@@ -147,9 +148,15 @@ class CircuitFacts:
         return tuple(out)
 
     def voltage(self, node: str):
-        """V_node after the known voltages and input equalities (None when it is still an unknown)."""
+        """V_node: its solved value when short, else after the known voltages and input equalities (None
+        when it is still an unknown)."""
         if node == self.reference:
             return sympy.Integer(0)
+        raw = self.solved.get(node)
+        if raw is not None and not getattr(raw, "is_large", False) and sympy.count_ops(raw) <= 200:
+            value = sympy.factor(raw)
+            if sympy.count_ops(value) <= 40:  # short enough to read in a message
+                return value
         return self.eliminated.get(V(node))
 
     def feedback(self, opamp: str) -> str | None:

@@ -441,7 +441,7 @@ class Auditor:
     @property
     def facts(self):
         if self._facts is None:
-            self._facts = CircuitFacts(self.system)
+            self._facts = CircuitFacts(self.system, self.solution)
         return self._facts
 
     @property
