@@ -190,7 +190,8 @@ def cmd_real(args) -> int:
         return 0
     cmp = study.comparison(f)
     warnings = _warnings(study)
-    _finish(comparison_lines(cmp, args.ascii), warnings, args.ascii)
+    from nodeterm.present.dimensions import find_units
+    _finish(comparison_lines(cmp, args.ascii, find_units(circuit)), warnings, args.ascii)
     return strict_status(args, warnings, 0)
 
 

@@ -30,8 +30,11 @@ from nodeterm.present.format import eng, expr_text
 _PLOT_LOCK = threading.Lock()
 
 
-def _real(x: float, unit: str, ascii_only: bool) -> str:
+def _real(x: float, unit, ascii_only: bool) -> str:
     # A dimensionless number (Q, a ratio) in plain notation: "707.1 m" would read as metres.
+    if not isinstance(unit, str):  # a dimensions.Unit: prefixes only where the unit takes them
+        from nodeterm.present.format import number_text
+        return number_text(x, unit, ascii_only)
     return eng(x, unit, ascii_only=ascii_only) if unit else f"{x:.4g}"
 
 
@@ -223,16 +226,20 @@ def _bw_text(bw, ascii_only: bool) -> str:
     return f"{_num(bw.low, 'Hz', ascii_only)} to {_num(bw.high, 'Hz', ascii_only)}"
 
 
-def comparison_lines(cmp, ascii_only: bool = False) -> list[str]:
-    """Ideal against real model for every [find] quantity, then the real model's node equations."""
+def comparison_lines(cmp, ascii_only: bool = False, units: dict | None = None) -> list[str]:
+    """Ideal against real model for every [find] quantity, then the real model's node equations.
+
+    ``units``: [find] name -> unit (``dimensions.find_units``) for the DC values.
+    """
     from nodeterm.present.text import equation_text
     out = ["Ideal op-amps against the real model (gain, gbw, rin, rout)", ""]
     for r in cmp.rows:
+        unit = (units or {}).get(r.name, "")
         out.append(f"{r.name}")
         out.append(f"  ideal: {expr_text(r.ideal)}")
         out.append(f"  real:  {expr_text(r.real)}")
-        out.append(f"  at DC: ideal {_exact_and_number(r.dc_ideal, '', ascii_only)}, "
-                   f"real {_exact_and_number(r.dc_real, '', ascii_only)}")
+        out.append(f"  at DC: ideal {_exact_and_number(r.dc_ideal, unit, ascii_only)}, "
+                   f"real {_exact_and_number(r.dc_real, unit, ascii_only)}")
         if r.dc_error is not None:
             e = r.dc_error
             pct = f" = {float(e) * 100:.4g} %" if e.is_number else ""

@@ -189,3 +189,13 @@ def test_report_shows_units_of_every_numeric_result():
     assert "I_R1 = 61/12500000 (≈ 4.88 µA)" in text
     assert "gain = -100 V/V" in text
     assert "Iin = 61/12500000 (≈ 4.88 µA)" in text
+
+
+def test_real_model_comparison_shows_units():
+    # non-inverting amplifier with finite open-loop gain A0: G = (1 + Rf/Rg)/(1 + (1 + Rf/Rg)/A0)
+    # (Franco, Design with Operational Amplifiers, ch. 1, from memory): 10/(1 + 10/1e6) = 1000000/100001
+    from nodeterm.engine.study import Study
+    from nodeterm.present.analysis import comparison_lines
+    c = load_circuit(str(ROOT / "tests" / "analysis" / "noninverting_gbw.toml"))
+    lines = comparison_lines(Study(c).comparison(None), units=find_units(c))
+    assert "  at DC: ideal 10, real 1000000/100001 (≈ 10 V/V)" in lines
