@@ -50,3 +50,11 @@ def test_messages_never_repeat_the_status_or_print_empty_values():
         v = _verdict(case)
         assert not v.message.startswith(("holds", "fails")), v.message
         assert "with :" not in v.message and "--numeric" not in v.message, v.message
+
+
+def test_notes_on_claims_that_lean_on_a_rule_that_does_not_apply():
+    pytest.importorskip("nodeterm.engine.equations.feedback")  # the per-op-amp feedback check
+    for case in CASES:
+        if case.note:
+            v = _verdict(case)
+            assert case.note in v.message, v.message

@@ -94,6 +94,8 @@ class CircuitFacts:
         self.eliminated = dict(system.eliminated)
         self.skipped = dict(system.skipped)
         self.solved = dict(solution.node_voltages) if solution is not None else {}
+        self.values = dict(system.values)
+        self._feedback: dict | None = None
 
     # --- parts and nodes ------------------------------------------------------
     def touching(self, node: str) -> tuple[str, ...]:
@@ -160,16 +162,16 @@ class CircuitFacts:
         return self.eliminated.get(V(node))
 
     def feedback(self, opamp: str) -> str | None:
-        """'negative', 'positive only', 'none' or None when it cannot be told (feedback module absent)."""
-        try:
-            from nodeterm.engine.equations import feedback as fb  # added by the feedback check
-        except ImportError:
-            return None
-        for name in ("feedback_kind", "classify", "feedback_of"):
-            fn = getattr(fb, name, None)
-            if fn is not None:
+        """'negative', 'positive', 'none', 'depends-on-values', 'not-checked', or None when the feedback
+        check (:mod:`nodeterm.engine.equations.feedback`) is not available."""
+        if self._feedback is None:
+            try:
+                from nodeterm.engine.equations.feedback import opamp_feedback
+            except ImportError:
+                self._feedback = {}
+            else:
                 try:
-                    return fn(self.circuit, opamp)
+                    self._feedback = {k: f.kind for k, f in opamp_feedback(self.circuit, self.values).items()}
                 except Exception:  # noqa: BLE001 - a missing fact must not break a verdict
-                    return None
-        return None
+                    self._feedback = {}
+        return self._feedback.get(opamp)

@@ -294,6 +294,7 @@ class Auditor:
         else:
             e, k = helpers[0]
             msg = f"it is {e.label}" + _scale_words(k) if len(helpers) == 1 else "it follows from " + help_text
+        msg += self._feedback_note([e for e, _ in helpers], details)
         main = primary or helpers
         labels = tuple(e.label for e, _ in main)
         step = self.step_of.get(labels[0])
@@ -301,6 +302,20 @@ class Auditor:
             details["step_title"] = self.system.steps[step - 1].title
             msg += f" (step {step})"
         return Verdict(name, HOLDS, "equation", msg, matches=labels, step=step, details=details, **loc)
+
+    def _feedback_note(self, helpers, details: dict) -> str:
+        """When the claim leans on V+ = V- of an op-amp without negative feedback: say the rule does not apply."""
+        for e in helpers:
+            if e.kind != "opamp_equality":
+                continue
+            kind = self.facts.feedback(e.at)
+            if kind in ("positive", "none"):
+                what = "only positive feedback" if kind == "positive" else "no feedback"
+                note = (f"but {e.at} has {what}, so V+ = V- does not apply: a real op-amp's output runs to a "
+                        "rail (it works as a comparator); this holds for the linear model only")
+                details["note"] = note
+                return "; " + note
+        return ""
 
     def _combination(self, expr):
         forms = self._generated_forms()
