@@ -19,6 +19,7 @@ from __future__ import annotations
 import json
 import os
 import subprocess
+import sys
 
 import pytest
 import sympy
@@ -100,9 +101,8 @@ def only(entries, key, name):
 def test_value_change_since_a_revision(repo, capsys):
     """Expected: parameter Rf 100k -> 220k; no part, node or equation changes (the equations are in Rf);
     gain symbolically -Rf/Rin both times, with the file's values -10 -> -22 (+120 %); Iin unchanged."""
-    data = run_json(capsys, "diff", str(repo / "stage.toml"), "--since", "v1")  # working copy = v3
     data = run_json(capsys, "diff", str(repo / "stage.toml"), "--since", "HEAD~1")  # v2 -> v3: R3 only
-    assert [p["part"] for p in data["parts"]] == ["R3"]
+    assert [p["part"] for p in data["parts"]] == ["R3"] and data["parameters"] == []
     git_v2 = subprocess.run(["git", "-C", str(repo), "show", "v2:stage.toml"], capture_output=True, text=True,
                             check=True).stdout
     (repo / "stage.toml").write_text(git_v2)
@@ -336,3 +336,39 @@ def test_value_options_apply_to_both_revisions(tmp_path, capsys):
     assert [r["result"] for r in data["results"]] == ["gain"]
     code, out, err = run(capsys, "diff", old, new, "--set", "Vx=2")
     assert code == 2 and out == "" and "no parameter 'Vx'" in err and "old.toml" in err
+
+
+def test_opamp_input_moved_changes_its_equality(tmp_path, capsys):
+    """U1's plus input moved from gnd to a new divider node ref (R5, R6 from in): expected: parts R5 and
+    R6 added, U1 changed (plus gnd -> ref), node ref appeared with its own KCL, the input equality of U1
+    changed from 0 = V_inv to V_ref = V_inv; the gain becomes that of a difference amplifier fed with
+    V_in on both inputs, -Rf/Rin + (1 + Rf/Rin)*R6/(R5 + R6) (Sedra & Smith sec. 2.4, from memory)."""
+    old = write(tmp_path, "old.toml", INVERTING)
+    new = write(tmp_path, "new.toml", INVERTING.replace('plus = "gnd"', 'plus = "ref"').replace(
+        "[find]", 'R5 = { kind = "resistor", nodes = ["in", "ref"], value = "Rin" }\n'
+                  'R6 = { kind = "resistor", nodes = ["ref", "gnd"], value = "Rf" }\n\n[find]'))
+    data = run_json(capsys, "diff", old, new)
+    assert {(p["part"], p["change"]) for p in data["parts"]} == {("U1", "changed"), ("R5", "added"),
+                                                                ("R6", "added")}
+    assert [(n["node"], n["change"]) for n in data["nodes"]] == [("ref", "appeared")]
+    eq = only(data["equations"], "at", "U1")
+    V_ref, V_inv = sympy.symbols("V_ref V_inv")
+    assert sympy.sympify(eq["old"]["lhs"]) - sympy.sympify(eq["old"]["rhs"]) in (V_inv, -V_inv)
+    assert sympy.expand(sympy.sympify(eq["new"]["lhs"]) - sympy.sympify(eq["new"]["rhs"])) in (
+        V_ref - V_inv, V_inv - V_ref)
+    assert only(data["equations"], "at", "ref")["change"] == "added"
+    gain = only(data["results"], "result", "gain")
+    expected = -Rf / Rin + (1 + Rf / Rin) * Rf / (Rin + Rf)  # R5 = Rin, R6 = Rf
+    assert sympy.simplify(sympy.sympify(gain["new"]) - expected) == 0
+
+
+def test_command_runs_as_a_program(tmp_path):
+    """python -m nodeterm diff, as CI would run it: exit 1 with --fail-on-result-change, Textual not loaded."""
+    old = write(tmp_path, "old.toml", INVERTING)
+    new = write(tmp_path, "new.toml", INVERTING.replace('Rf = "100k"', 'Rf = "220k"'))
+    code = ("import sys; sys.argv = ['nodeterm', 'diff', %r, %r, '--fail-on-result-change'];"
+            "from nodeterm.cli import main; status = main(sys.argv[1:]);"
+            "assert 'textual' not in sys.modules; sys.exit(status)") % (old, new)
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
+    assert done.returncode == 1, done.stderr
+    assert "Rf changed" in done.stdout and "-10 -> -22 (+120 %)" in done.stdout
