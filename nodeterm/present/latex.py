@@ -59,7 +59,15 @@ def _escape_sub(text: str) -> str:
 
 
 def tex(expr) -> str:
-    """SymPy's LaTeX for an expression, each name set as one symbol (:func:`latex_name`)."""
+    """SymPy's LaTeX for an expression, each name set as one symbol (:func:`latex_name`).
+
+    A large exact result prints itself from its polynomials (``LargeExpr._latex``), under the same names.
+    """
+    if getattr(expr, "is_large", False):
+        field = expr._field
+        dummies = set(field.atoms.values())
+        names = {x: latex_name(x.name) for x in field.symbols if x not in dummies}
+        return sympy.latex(expr, symbol_names=names)
     e = expr if isinstance(expr, sympy.MatrixBase) else as_expr(expr)
     names = {x: latex_name(x.name) for x in e.free_symbols if isinstance(x, sympy.Symbol)}
     return sympy.latex(e, symbol_names=names)

@@ -83,6 +83,8 @@ class TransferFunction:
     dc_gain: sympy.Expr
     hf_gain: sympy.Expr
     sections: tuple[Section, ...] = field(default=())
+    params: frozenset | None = None
+    """The free symbols other than s, when known without building the expression (large results)."""
 
     @property
     def order(self) -> int:
@@ -91,6 +93,8 @@ class TransferFunction:
     @property
     def symbols(self) -> set:
         """Free symbols other than s (parameters still without a value)."""
+        if self.params is not None:
+            return set(self.params)
         return self.expr.free_symbols - {s}
 
     @property
@@ -233,12 +237,29 @@ def _limit_ratio(num_coeffs, den_coeffs, at_zero: bool) -> sympy.Expr:
 def transfer_function(expr: sympy.Expr, name: str = "H") -> TransferFunction:
     """Read an expression in s as H(s) = N(s)/D(s).
 
+    Rational functions with integer coefficients (every result of the exact solver, large ones
+    included) are read straight from their FLINT polynomials (:func:`transfer_from_polynomials`);
+    anything else (floats, roots, pi) goes through SymPy (:func:`transfer_function_sympy`).
+
     >>> R, C = sympy.symbols("R C")
     >>> tf = transfer_function(1/(s*R*C + 1))
     >>> tf.den_coeffs, tf.poles, tf.dc_gain, tf.hf_gain
     ((C*R, 1), (-1/(C*R),), 1, 0)
     >>> [(x.order, x.w0) for x in tf.sections]
     [(1, 1/(C*R))]
+    """
+    polys = polynomials(expr)
+    if polys is not None:
+        return transfer_from_polynomials(*polys, name=name)
+    return transfer_function_sympy(expr, name)
+
+
+def transfer_function_sympy(expr: sympy.Expr, name: str = "H") -> TransferFunction:
+    """:func:`transfer_function` by SymPy alone (``cancel``, ``Poly``): the fallback and the reference.
+
+    >>> R, C = sympy.symbols("R C")
+    >>> transfer_function_sympy(1/(s*R*C + 1)).den_coeffs
+    (C*R, 1)
     """
     expr = sympy.cancel(sympy.together(as_expr(expr)))
     num, den = sympy.fraction(expr)
@@ -261,10 +282,121 @@ def transfer_function(expr: sympy.Expr, name: str = "H") -> TransferFunction:
         sections=tuple(_sections(den, "pole") + _sections(num, "zero")) if detail else ())
 
 
+# --- the polynomial path -----------------------------------------------------------------------
+def polynomials(expr) -> tuple | None:
+    """``(field, num, den)``: the FLINT polynomials of a rational function in lowest terms, or None.
+
+    A large result of the exact solver (:class:`~nodeterm.engine.solving.fastsolve.LargeExpr`)
+    hands over its own polynomials; a SymPy expression is converted when it is a rational function
+    with rational coefficients and no roots or pi (those go to SymPy).
+    """
+    from nodeterm.engine.solving import fastsolve
+    if fastsolve.flint is None:  # pragma: no cover - python-flint is a dependency
+        return None
+    if getattr(expr, "is_large", False):
+        if expr._field.atoms or expr._field.s_index is None:
+            return None
+        num, den = expr.fraction
+        return expr._field, num, den
+    try:
+        e = as_expr(expr)
+        syms, atoms = fastsolve._symbols_and_atoms([e])
+        if atoms:
+            return None
+        field = fastsolve.PolyField(syms | {s})
+        num, den = field.reduce(field.ev(e))
+    except (fastsolve.Unsupported, ZeroDivisionError, TypeError, sympy.SympifyError):
+        return None
+    return field, num, den
+
+
+def _s_coefficients(field, p) -> dict:
+    """{k: coefficient of s**k} of a polynomial (no entry for a zero coefficient)."""
+    if p.is_zero():
+        return {}
+    return dict(field._s_groups(p))
+
+
+def _poly_value(field, p):
+    """A polynomial as a value: a SymPy expression when small, else a LargeExpr printed from FLINT."""
+    from nodeterm.engine.solving.fastsolve import LargeExpr, large_terms
+    if len(p) <= large_terms():
+        return field.collected_expr(p) if not p.is_zero() else sympy.Integer(0)
+    return LargeExpr(field, p, field.one, reduced=True)
+
+
+def _poly_ratio(field, num, den):
+    """``num/den`` (den not zero) in lowest terms, in the solver's canonical form."""
+    return field.result(field.reduce((num, den)), reduced=True)
+
+
+def transfer_from_polynomials(field, num, den, name: str = "H") -> TransferFunction:
+    """H(s) = N(s)/D(s) read from FLINT polynomials: coefficients per power of s split off in C.
+
+    Nothing here builds a SymPy expression of the whole N or D when they are large: the
+    coefficients, N, D, H itself and the gains are SymPy only up to the solver's size limit
+    (:func:`~nodeterm.engine.solving.fastsolve.large_terms`) and lazy ``LargeExpr`` above it. Exact
+    roots and factored sections are computed (by SymPy, on the expanded polynomials) only up to
+    :data:`MAX_TERMS_FOR_DETAIL` terms or when the coefficients are numbers.
+
+    >>> R, C = sympy.symbols("R C")
+    >>> tf = transfer_function(R*C*s/(R*C*s + 1))
+    >>> tf.num_coeffs, tf.den_coeffs, tf.dc_gain, tf.hf_gain
+    ((C*R, 0), (C*R, 1), 0, 1)
+    """
+    from nodeterm.engine.solving.fastsolve import LargeExpr
+    dg = _s_coefficients(field, den)
+    top = dg[max(dg)]
+    if top.is_constant() and top.leading_coefficient() < 0:
+        num, den = -num, -den
+        dg = {k: -c for k, c in dg.items()}
+    ng = _s_coefficients(field, num)
+    dd, dn = max(dg), max(ng, default=0)
+    num_c = tuple(_poly_value(field, ng[k]) if k in ng else sympy.Integer(0) for k in range(dn, -1, -1))
+    den_c = tuple(_poly_value(field, dg[k]) if k in dg else sympy.Integer(0) for k in range(dd, -1, -1))
+    si = field.s_index
+    degrees = [max(a, b) for a, b in zip(num.degrees(), den.degrees())]
+    params = frozenset(x for i, x in enumerate(field.symbols) if i != si and degrees[i] > 0)
+    numeric = not params
+    small = len(num) + len(den) <= MAX_TERMS_FOR_DETAIL
+    zero = field.zero
+    n0, d0 = ng.get(0, zero), dg.get(0, zero)
+    if d0.is_zero():
+        dc = sympy.zoo if not n0.is_zero() else sympy.nan
+    else:
+        dc = _poly_ratio(field, n0, d0)
+    if dn < dd:
+        hf = sympy.Integer(0)
+    elif dn > dd:
+        hf = sympy.oo
+    else:
+        hf = _poly_ratio(field, ng[dn], dg[dd])
+    if small or numeric:  # sizes a person reads: SymPy gives exact roots and factored sections
+        num_e, den_e = field.poly_expr(num), field.poly_expr(den)
+        expr = num_e / den_e
+        poles, zeros = _roots(den_e), _roots(num_e)
+        sections = tuple(_sections(den_e, "pole") + _sections(num_e, "zero"))
+    else:
+        expr = LargeExpr(field, num, den, reduced=True)
+        poles = zeros = None
+        sections = ()
+    return TransferFunction(
+        name=name, expr=expr, num=_poly_value(field, num), den=_poly_value(field, den),
+        num_coeffs=num_c, den_coeffs=den_c, poles=poles, zeros=zeros, dc_gain=dc, hf_gain=hf,
+        sections=sections, params=params)
+
+
 def transfer_functions(solution, circuit) -> dict[str, TransferFunction]:
     """H(s) of every [find] quantity that depends on s."""
     return {name: transfer_function(v, name) for name, v in solution.find.items()
-            if as_expr(v).has(s) and name in circuit.find}
+            if name in circuit.find and depends_on_s(v)}
+
+
+def depends_on_s(value) -> bool:
+    """Whether a result depends on s, without building the SymPy expression of a large one."""
+    if getattr(value, "is_large", False):
+        return value.depends_on_s()
+    return as_expr(value).has(s)
 
 
 # --- frequency response ------------------------------------------------------------------------
