@@ -14,6 +14,7 @@ import sympy
 from nodeterm.engine.symbols import as_expr
 _PREFIXES = [(12, "T"), (9, "G"), (6, "M"), (3, "k"), (0, ""), (-3, "m"), (-6, "µ"), (-9, "n"), (-12, "p"),
              (-15, "f")]
+_PREFIX_OF = dict(_PREFIXES)
 
 
 def eng(value: float, unit: str = "", digits: int = 4, ascii_only: bool = False) -> str:
@@ -40,7 +41,7 @@ def eng(value: float, unit: str = "", digits: int = 4, ascii_only: bool = False)
         text = f"{mant:.{digits}g}"
     if "e" in text:
         text = f"{float(text):g}"
-    prefix = dict(_PREFIXES)[exp3]
+    prefix = _PREFIX_OF[exp3]
     if ascii_only and prefix == "µ":
         prefix = "u"
     sep = " " if (prefix or unit) else ""

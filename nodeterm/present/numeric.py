@@ -45,6 +45,8 @@ def numeric_json(circuit, solution, records=None) -> str:
 
 
 def _value(v, unit: str, ascii_only: bool) -> str:
+    if type(v) is float:  # the usual case at DC
+        return f"{eng(v, unit, digits=6, ascii_only=ascii_only)}  ({v!r})"
     v = complex(v)
     if v.imag == 0:
         return f"{eng(v.real, unit, digits=6, ascii_only=ascii_only)}  ({number_text(v)})"

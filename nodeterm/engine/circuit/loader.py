@@ -44,6 +44,7 @@ class _Loader:
         self.limits = _SizeLimits(self.error)
         self.warnings: list[Warning] = []
         self._parsed: dict = {}  # (text, resolver) -> expression: big circuits repeat their values
+        self._good_nodes: set = set()  # node names already checked
 
     def error(self, message: str, hint: str = "", line: int | None = None,
               column: int | None = None) -> InputError:
@@ -52,6 +53,10 @@ class _Loader:
     # --- values ---------------------------------------------------------
     def expression(self, raw: object, *, what: str, table: str, key: str, field: str | None,
                    resolve) -> sympy.Expr:
+        if type(raw) is str:  # the usual case, and parts share values: parsed once per text
+            cached = self._parsed.get((raw, resolve))
+            if cached is not None:
+                return cached
         line = self.where.key(table, key)
         if isinstance(raw, bool) or not isinstance(raw, (int, float, str)):
             raise self.error(f"{what} must be a number or an expression in quotes, not {_toml_type(raw)}",
@@ -294,6 +299,9 @@ class _Loader:
         return parts
 
     def node_list(self, raw: object, pid: str, key: str, count: int, line: int | None) -> tuple[str, ...]:
+        good = self._good_nodes
+        if type(raw) is list and len(raw) == count and all(type(n) is str and n in good for n in raw):
+            return tuple(raw)  # names already checked (a node is shared by several parts)
         if isinstance(raw, str) and count == 1:
             raw = [raw]
         if not isinstance(raw, list) or len(raw) != count or not all(isinstance(n, str) for n in raw):
@@ -304,6 +312,7 @@ class _Loader:
             if not NODE_RE.match(n):
                 raise self.error(f"part {pid}: node name {n!r} is not valid",
                                  hint="node names use letters A-Z a-z, digits and _", line=line)
+        good.update(raw)
         return tuple(raw)
 
     def part(self, cls: type[Part], pid: str, raw: dict, line: int | None, resolve) -> Part:
@@ -354,22 +363,32 @@ class _Loader:
     def check_values(self, parts: list[Part], parameters: dict[str, Parameter]) -> None:
         raw = {n: p.value for n, p in parameters.items() if p.value is not None}
         subs = {param(n): v for n, v in raw.items()}
-        for p in parts:
-            if p.value is None:
-                continue
-            value = p.value
+        resolved: dict = {}  # parts share values: each distinct one is resolved and classified once
+
+        def classify(value):
             for _ in range(0 if value.is_Number else len(subs) + 1):
                 new = value.xreplace(subs)
                 if new == value:
                     break
                 value = new
             if not value.is_number:
+                return value, False, False
+            return value, value == 0, bool(value.is_extended_real and value < 0)
+
+        for p in parts:
+            if p.value is None:
                 continue
-            if value == 0 and p.value_must_be_nonzero:
+            known = resolved.get(p.value)
+            if known is None:
+                known = resolved[p.value] = classify(p.value)
+            value, zero, negative = known
+            if not zero and not negative:
+                continue
+            if zero and p.value_must_be_nonzero:
                 raise self.error(f"{p.kind} {p.id} has value 0",
                                  hint="a zero resistor or inductor is a wire and a zero capacitor is an open: "
                                       "join the nodes or remove the part", line=p.line)
-            if value.is_extended_real and value < 0 and p.value_must_be_nonzero:
+            if negative and p.value_must_be_nonzero:
                 self.warnings.append(Warning(
                     "negative-value", f"{p.kind} {p.id} has a negative value ({value}); "
                     "legal for negative-impedance models, but check the sign", p.id))

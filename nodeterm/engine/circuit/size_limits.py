@@ -67,13 +67,15 @@ class _SizeLimits:
 
     def check_parts(self, parts: list[Part]) -> None:
         """Refuse part values and gains that, with the parameters they use, would blow up."""
+        passed: set = set()  # parts share values (every 1k resistor): check each distinct one once
         for p in parts:
             for what, expr in (("value", p.value), ("gain", p.gain)):
-                if expr is not None:
+                if expr is not None and expr not in passed:
                     syms = self.vars
                     nvars = len(set().union(*(syms.get(x, {str(x)}) for x in expr.free_symbols)))
                     self.check(size_bound(expr, self.bounds), f"part {p.id} {what}", p.line,
                                term_bound(expr, self.terms), nvars)
+                    passed.add(expr)
 
     def check(self, b, what: str, line: int | None, terms: tuple[int, int] = (1, 1),
               nvars: int | None = None) -> None:

@@ -23,6 +23,7 @@ matrix entries.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -99,8 +100,6 @@ class NumericModel:
         self.size = len(nodes) + len(branches)
         ctx = _Ctx(ref, {p.id: p for p in circuit.parts}, set(self.branch_index))
         self._ctx = ctx
-        self.unknown_symbols = {V(n): i for n, i in self.node_index.items()}
-        self.unknown_symbols.update({I(pid): i for pid, i in self.branch_index.items()})
         coefs: dict = {}  # distinct coefficient expression -> index
         rows: list[int] = []
         cols: list[int] = []  # -1 for the right-hand side
@@ -146,17 +145,10 @@ class NumericModel:
                 if y is None:
                     y = admittances[key] = p.admittance()
                 a, b = p.nodes[0], p.nodes[1]
-                ia, ib = nidx.get(a), nidx.get(b)
-                passive.append((p.id, -1 if ia is None else ia, -1 if ib is None else ib,
-                                coefs.setdefault(y, len(coefs))))
-                if ia is not None:
-                    stamp(ia, ia, 1.0, y)
-                    if ib is not None:
-                        stamp(ia, ib, -1.0, y)
-                if ib is not None:
-                    stamp(ib, ib, 1.0, y)
-                    if ia is not None:
-                        stamp(ib, ia, -1.0, y)
+                k = coefs.get(y)
+                if k is None:
+                    k = coefs[y] = len(coefs)
+                passive.append((p.id, nidx.get(a, -1), nidx.get(b, -1), k))  # stamped below, at once
             elif type(p) is CurrentSource:
                 a, b = p.nodes
                 if a != ref:
@@ -168,12 +160,25 @@ class NumericModel:
                     if node != ref:
                         self._linear_stamps(nidx[node], cur, 1.0, stamp)
         self.coefficients = list(coefs)
-        self.rows = np.array(rows, dtype=np.int64)
-        self.cols = np.array(cols, dtype=np.int64)
-        self.signs = np.array(signs)
-        self.cidx = np.array(cidx, dtype=np.int64)
         self._passive_ids = [q[0] for q in passive]
         self._passive = np.array([q[1:] for q in passive], dtype=np.int64).reshape(-1, 3)
+        # Two-terminal admittances: y at (a, a) and (b, b), -y at (a, b) and (b, a), built as arrays
+        # (a 20,000-resistor mesh would otherwise make 80,000 Python calls).
+        pa, pb, pk = self._passive.T
+        stamps = [(pa, pa, 1.0, pa >= 0), (pa, pb, -1.0, (pa >= 0) & (pb >= 0)),
+                  (pb, pb, 1.0, pb >= 0), (pb, pa, -1.0, (pa >= 0) & (pb >= 0))]
+        self.rows = np.concatenate([np.array(rows, dtype=np.int64)] + [r[m] for r, _, _, m in stamps])
+        self.cols = np.concatenate([np.array(cols, dtype=np.int64)] + [c[m] for _, c, _, m in stamps])
+        self.signs = np.concatenate([np.array(signs, dtype=float)]
+                                    + [np.full(int(m.sum()), sg) for _, _, sg, m in stamps])
+        self.cidx = np.concatenate([np.array(cidx, dtype=np.int64)] + [pk[m] for *_, m in stamps])
+
+    @functools.cached_property
+    def unknown_symbols(self) -> dict:
+        """The SymPy symbol of each unknown -> its column (made only for parts without a shortcut)."""
+        out = {V(n): i for n, i in self.node_index.items()}
+        out.update({I(pid): i for pid, i in self.branch_index.items()})
+        return out
 
     def _linear_stamps(self, row: int, expr: sympy.Expr, sign: float, stamp) -> None:
         """Stamps of a current (or constraint residual) linear in the unknowns: sum c_j x_j + c0."""
@@ -244,31 +249,47 @@ class NumericModel:
         volts = {ref: 0.0}
         volts.update(zip(self.nodes, x[:len(self.nodes)].tolist()))
         generic = len(self._passive_ids) + len(self.branch_index) < len(self.circuit.parts)
-        env = {sym: x[i] for sym, i in self.unknown_symbols.items()} if generic or self.circuit.find else {}
+        unknowns = self.unknown_symbols if generic or self.circuit.find else {}
         if coef is None:
             coef = self.coefficient_values(s_value)
         xv = np.append(x[:len(self.nodes)], 0.0)  # index -1: the reference
         pa, pb, pk = self._passive.T
         passive = dict(zip(self._passive_ids, ((xv[pa] - xv[pb]) * coef[pk]).tolist()))
-        branch = {pid: x[j] for pid, j in self.branch_index.items()}
+        xl = x.tolist()
+        branch = {pid: xl[j] for pid, j in self.branch_index.items()}
         currents = {}
+
+        def lookup(sym):
+            i = unknowns.get(sym)
+            return None if i is None else xl[i]
+
         for p in self.circuit.parts:
             pid = p.id
             value = passive.get(pid)
             if value is None:
                 value = branch.get(pid)
             if value is None:
-                value = self._evaluate(p.current(self._ctx, None), env, s_value)
+                value = self._evaluate(p.current(self._ctx, None), lookup, s_value)
             currents[pid] = value
         find = {}
         if self.circuit.find:
-            cenv = {**env, **{I(pid): v for pid, v in currents.items()}}
-            find = {name: self._evaluate(item.expr, cenv, s_value) for name, item in self.circuit.find.items()}
+            def find_lookup(sym):
+                if sym.name.startswith("I_") and sym.name[2:] in currents:
+                    return currents[sym.name[2:]]
+                return lookup(sym)
+            find = {name: self._evaluate(item.expr, find_lookup, s_value)
+                    for name, item in self.circuit.find.items()}
         return NumericSolution(volts, currents, find, s_value, dict(self.values))
 
-    def _evaluate(self, expr, env: dict, s_value: complex):
+    def _evaluate(self, expr, lookup, s_value: complex):
+        """A current or [find] expression at the solution; ``lookup(symbol)`` gives an unknown's value."""
         e = expr.xreplace(self.subs).xreplace({s: s_value})
-        e = e.xreplace({k: as_expr(complex(v)) for k, v in env.items() if k in e.free_symbols})
+        found = {}
+        for k in e.free_symbols:
+            v = lookup(k)
+            if v is not None:
+                found[k] = as_expr(complex(v))
+        e = e.xreplace(found)
         try:
             return complex(e)
         except (TypeError, ZeroDivisionError):
