@@ -13,6 +13,9 @@ Cases (all circuits generated here, none read from disk except through the norma
   our solve against SciPy's ``splu`` on the same matrix; peak memory of a fresh process.
 * Monte Carlo, 100,000 samples of a 20-node circuit: batched solve against a per-sample
   ``numpy.linalg.solve`` loop (timed on a slice, scaled).
+* Whole commands on big circuits (``benchmarks/records.py``): every record of the 9-section ladder
+  (``solve --json``, each export format, ``check``, ``response``) against the text report, the
+  12-section JSON, and ``--numeric`` on the mesh against a tomllib + SciPy script.
 * The workbench on a 50-node op-amp chain (``benchmarks/workbench.py``): time to the first screen
   and the event loop's longest stall, against the same walk with the solve on the event loop.
 
@@ -43,6 +46,7 @@ from nodeterm.engine.solving.solve import solve_system  # noqa: E402
 from nodeterm.engine.study import Study  # noqa: E402
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
+import records  # noqa: E402 - benchmarks/records.py: whole commands on big circuits (issue-11 targets)
 import workbench  # noqa: E402 - benchmarks/workbench.py, next to this file
 
 
@@ -297,12 +301,18 @@ def main() -> None:
     opamp_circuits(args.quick)
     ours_solve, peer = numeric_mesh()
     monte_carlo()
+    rec = records.measure(args.quick, row)
     wb = workbench.measure(args.quick, row)
     first = max(ours["first_screen"] for ours, _ in wb.values())
     stall = max(ours["stall"] for ours, _ in wb.values())
     ui = (f"; workbench, 50 nodes: first screen {first:.2f} s (target < 1 s), longest event-loop stall "
           f"{stall * 1000:.0f} ms (target < 100 ms)")
     print("-" * 120)
+    print(f"records: 9-section ladder, every record at most {rec['records_worst']:.2f}x the text report "
+          "(target <= 2x)" + (f"; solve --json {rec['json_vs_sympy']:.0f}x faster than sympy.solve (target >= 100x)"
+                              if "json_vs_sympy" in rec else "")
+          + f"; 12-section JSON {rec['json12']:.2f} s (target < 2 s); 10k-node --numeric {rec['mesh']:.2f}x "
+            "a tomllib + SciPy script (target <= 1.5x)")
     if headline:
         print(f"headline: 9-section symbolic ladder {headline:.0f}x faster than sympy.solve "
               f"(target >= 100x); 10k-node solve {ours_solve / peer:.2f}x SciPy's splu time (target <= 2x)" + ui)

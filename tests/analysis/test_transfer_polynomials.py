@@ -116,7 +116,7 @@ def test_expressions_outside_the_polynomial_path_go_to_sympy():
 
 def ladder(n: int) -> str:
     lines = ["[parameters]", 'Vin = ""'] + [f'R{k} = ""\nC{k} = ""' for k in range(1, n + 1)]
-    lines += ["[parts]", 'VS = { kind = "vsource", nodes = ["n0", "gnd"], value = "Vin" }']
+    lines += ["[parts]", 'VS = { kind = "voltage_source", nodes = ["n0", "gnd"], value = "Vin" }']
     for k in range(1, n + 1):
         lines.append(f'RS{k} = {{ kind = "resistor", nodes = ["n{k - 1}", "n{k}"], value = "R{k}" }}')
         lines.append(f'CS{k} = {{ kind = "capacitor", nodes = ["n{k}", "gnd"], value = "C{k}" }}')
