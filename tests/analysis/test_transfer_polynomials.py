@@ -17,8 +17,11 @@ import pytest
 import sympy
 
 from nodeterm.engine import build_system, parse_circuit
+from nodeterm.engine.solving.solve import solve_system
+from nodeterm.engine.study import Study
+from nodeterm.engine.values import ValueChoice
 from nodeterm.engine.analysis import transfer as tr
-from nodeterm.engine.solving import fastsolve, solve as solve_mod
+from nodeterm.engine.solving import forms as solve_mod
 from nodeterm.engine.symbols import s
 
 SYMS = sympy.symbols("R1 R2 C1 C2 A")
@@ -131,7 +134,7 @@ def test_large_results_give_the_same_transfer_function_as_sympy(monkeypatch, n):
     monkeypatch.setattr(solve_mod, "FACTOR_LIMIT", 0)
     monkeypatch.setattr(tr, "MAX_TERMS_FOR_DETAIL", 0)
     c = parse_circuit(ladder(n))
-    sol = build_system(c).solve()
+    sol = solve_system(build_system(c))
     tfs = tr.transfer_functions(sol, c)
     assert set(tfs) == {"H", "Z"}
     for name, tf in tfs.items():
@@ -196,7 +199,7 @@ def latex_fraction(text: str):
 def test_large_result_latex_is_sympys_latex_of_the_same_expression(monkeypatch, n):
     monkeypatch.setattr(solve_mod, "FACTOR_LIMIT", 0)
     c = parse_circuit(ladder(n))
-    sol = build_system(c).solve()
+    sol = solve_system(build_system(c))
     for value in list(sol.node_voltages.values())[1:] + list(sol.find.values()):
         assert getattr(value, "is_large", False)
         num, den = value.fraction
@@ -213,7 +216,7 @@ def test_numeric_ladder_poles_from_polynomials_match_sympy_roots():
     for k in (1, 2, 3):
         text = text.replace(f'R{k} = ""', f'R{k} = "{k}k"').replace(f'C{k} = ""', f'C{k} = "{k}u"')
     c = parse_circuit(text)
-    tf = tr.transfer_functions(build_system(c).substitute_known().solve(), c)["H"]
+    tf = Study(c, ValueChoice.from_options(known=True)).transfer["H"]
     den = sympy.Poly(sum(sympy.sympify(x) * s**k for k, x in enumerate(reversed(tf.den_coeffs))), s)
     ref = sorted(complex(r).real for r in sympy.Poly(den, s).nroots(n=30))
     assert sorted(r.real for r in tf.poles) == pytest.approx(ref, rel=1e-12)
