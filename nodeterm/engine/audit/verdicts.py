@@ -64,6 +64,7 @@ from dataclasses import dataclass, field
 import sympy
 
 from nodeterm.engine.symbols import as_expr
+from nodeterm.engine.audit.at_solution import AtSolution
 from nodeterm.engine.audit.claim_forms import _ONE, _linear, _r, _t, _zero
 from nodeterm.engine.audit.closest_equation import HELPER_KINDS, PRIMARY_KINDS, _closest
 from nodeterm.engine.circuit.expr import ExpressionError, parse_expression
@@ -74,11 +75,15 @@ from nodeterm.engine.budget import OutOfBudget as TimerOut, budget as time_budge
 from nodeterm.engine.audit.result_causes import (_NUMERIC_POINTS, _decide_zero, _example, _is_zero,
                                                  _result_cause)
 from nodeterm.engine.equations.procedure import _Context
+from nodeterm.engine.solving.fastsolve import Unsupported
 from nodeterm.engine.solving.solve import solve_linear
 from nodeterm.engine.symbols import I, V, param
 from nodeterm.engine.solving.solve import solve_system
 
 HOLDS, FAILS, ERROR = "holds", "fails", "error"
+SOURCE_CAUSE_TERMS = 2000
+"""Claimed and solved results up to this many terms (together) get every likely cause SymPy reads;
+longer ones get the causes read on their polynomials (:meth:`.AtSolution.cause`)."""
 EXPLAIN_BUDGET = 3.0
 """Seconds a failing claim's explanation may take (its verdict comes first, whatever the budget)."""
 
@@ -163,6 +168,8 @@ class Auditor:
                 for e in step.equations:
                     self.step_of.setdefault(e.label, i)
         self._forms = None
+        # Large results (kept as polynomials by the solver) are checked in the solver's field.
+        self.at = AtSolution.of(self.sol, self.solution.find.values())
         self._facts = self._explainer = self._known = None
         self.budget_seconds = explain_budget
         self.budget = Budget(explain_budget)
@@ -230,7 +237,11 @@ class Auditor:
                             "write the equation you derived")
         lhs_p, rhs_p = self._prepare(lhs), self._prepare(rhs)
         r = lhs_p - rhs_p
-        holds, method = _decide_zero(r, self.sol)
+        fast = self.at.is_zero(r) if self.at is not None else None
+        if fast is not None:
+            holds, method = fast, "symbolic"
+        else:
+            holds, method = _decide_zero(r, self.sol)
         details: dict = {"claim": text}
         if method == "numeric":
             details["method"] = f"numeric check at {_NUMERIC_POINTS} random points (symbolic simplification inconclusive)"
@@ -431,9 +442,19 @@ class Auditor:
 
     def _add_example(self, lhs, rhs, details: dict) -> None:
         self.budget.check()
-        example = _example(lhs, rhs, self.sol)
+        example = self._example(lhs, rhs)
         if example:
             details["example"] = example
+
+    def _example(self, lhs, rhs) -> dict | None:
+        if self.at is not None:
+            try:
+                used = sorted((lhs.free_symbols | rhs.free_symbols) & set(self.sol), key=str)
+                return self.at.example(self.at.fraction(lhs), self.at.fraction(rhs),
+                                       {u: self.at.fraction(u) for u in used})
+            except (Unsupported, ZeroDivisionError):
+                pass
+        return _example(lhs, rhs, self.sol)
 
     def _found_details(self, base, findings, mode, details: dict) -> None:
         details["node"] = base.node
@@ -643,6 +664,12 @@ class Auditor:
             return None
         implied = sympy.cancel(-form.get(_ONE, 0) / form[x])
         actual = self.sol[x]
+        if self.at is not None and getattr(actual, "is_large", False):
+            try:
+                ci, ca = self.at.fraction(implied), self.at.fraction(actual)
+            except (Unsupported, ZeroDivisionError):
+                return None
+            return x, implied, actual, self._cause_at(ci, ca, self.at.ratio(ci, ca), self.at.difference(ci, ca))
         ratio = sympy.cancel(implied / actual) if actual != 0 else None
         return x, implied, actual, self._cause(implied, actual, ratio, sympy.cancel(implied - actual))
 
@@ -674,8 +701,13 @@ class Auditor:
         else:
             text_expr = text
         expr = self._parse(text_expr, offset, column)
-        claimed = self._prepare(expr).xreplace(self.sol)
         solved = self.solution.find[name]
+        if self.at is not None and getattr(solved, "is_large", False):
+            try:
+                return self._result_at(name, text, expr, solved, loc)
+            except (Unsupported, ZeroDivisionError):
+                pass
+        claimed = self._prepare(expr).xreplace(self.sol)
         holds, method = _decide_zero(claimed - solved)
         details = {"claim": text, "claimed": _r(claimed), "solved": _r(solved),
                    "method": "symbolic" if method == "symbolic" else
@@ -715,6 +747,62 @@ class Auditor:
         out["msg"] = msg
         self.budget.check()
         example = _example(self._prepare(expr), solved, self.sol)
+        if example:
+            example = {**example, "claimed": example.pop("lhs"), "solved": example.pop("rhs")}
+            details["example"] = example
+
+
+    def _result_at(self, name: str, text: str, expr, solved, loc: dict) -> Verdict:
+        """:meth:`_result` for a large solved result, in the solver's polynomial field."""
+        at = self.at
+        cf, sf = at.fraction(self._prepare(expr)), at.fraction(solved)
+        claimed = at.value(cf)
+        details = {"claim": text, "claimed": _r(claimed), "solved": _r(solved), "method": "symbolic"}
+        diff = at.difference(cf, sf)
+        if diff[0].is_zero():
+            return Verdict(name, HOLDS, "result", f"equals the solved {name} = {_r(solved)}",
+                           details=details, **loc)
+        out = {"msg": f"claimed {_r(claimed)}, solved {_r(solved)}"}
+        self._within_budget(lambda: self._explain_result_at(name, expr, solved, cf, sf, diff, details, out),
+                           details, out)
+        return Verdict(name, FAILS, "result", out["msg"], details=details, **loc)
+
+    def _cause_at(self, cf, sf, ratio, diff) -> str:
+        """:meth:`_cause` for fractions of the solver's field: SymPy reads results small enough for it."""
+        at = self.at
+        if sum(len(p) for p in (*cf, *sf)) <= SOURCE_CAUSE_TERMS:
+            return self._cause(as_expr(at.value(cf)), as_expr(at.value(sf)),
+                               as_expr(at.value(ratio)) if ratio is not None else None, as_expr(at.value(diff)))
+        return at.cause(cf, sf, ratio, diff)
+
+    def _explain_result_at(self, name, expr, solved, cf, sf, diff, details: dict, out: dict) -> None:
+        known = self._known_hint(name, details)
+        if known:
+            out["msg"] = known["msg"]
+            return
+        at = self.at
+        self.budget.check()
+        ratio = at.ratio(cf, sf)
+        ratio_is_number = ratio is not None and ratio[0].is_constant() and ratio[1].is_constant()
+        if ratio is not None and (ratio_is_number or len(ratio[0]) + len(ratio[1]) <= len(diff[0]) + len(diff[1])):
+            details["ratio"] = _r(at.value(ratio))
+        details["difference"] = _r(at.value(diff))
+        self.budget.check()
+        cause = self._cause_at(cf, sf, ratio, diff)
+        if cause:
+            details["cause"] = cause
+        msg = out["msg"]
+        if cause:
+            msg += f"; likely cause: {cause}"
+        elif "ratio" in details and ratio_is_number:
+            msg += f"; ratio {details['ratio']}"
+        else:
+            msg += f"; they differ by {details['difference']}"
+        out["msg"] = msg
+        self.budget.check()
+        prepared = self._prepare(expr)
+        used = sorted(prepared.free_symbols & set(self.sol), key=str)
+        example = at.example(cf, sf, {u: at.fraction(u) for u in used})
         if example:
             example = {**example, "claimed": example.pop("lhs"), "solved": example.pop("rhs")}
             details["example"] = example
