@@ -318,17 +318,25 @@ def kcl_step(circuit: Circuit, ctx: _Context, components: dict[str, list[str]], 
     return kcl_eqs, step
 
 
-def opamp_step(circuit: Circuit, opamp_eqs: list[Equation]) -> Step:
-    """Step 4: the op-amp equations (written with the sources at step 2), with why."""
+def opamp_step(circuit: Circuit, opamp_eqs: list[Equation], feedback: dict | None = None) -> Step:
+    """Step 4: the op-amp equations (written with the sources at step 2), with why.
+
+    ``feedback`` (op-amp id -> :class:`.feedback.Feedback`) adds a note for each op-amp
+    without negative feedback: V+ = V- does not apply to it.
+    """
     ideal = [p.id for p in circuit.parts if p.kind == "opamp" and p.ideal]
-    return Step("opamps", "Op-amp equations",
-                ("Each ideal op-amp with negative feedback holds its inputs equal: V_plus = V_minus."
-                 if ideal else "") +
-                (" A real op-amp gives V_out = A(s)*(V_plus - V_minus), A(s) its open-loop gain"
-                 " (with rout: that source behind rout, and node out gets an ordinary KCL)."
-                 if len(ideal) < len([p for p in circuit.parts if p.kind == "opamp"]) else "")
-                or "The circuit has no op-amp.",
-                tuple(opamp_eqs))
+    text = (("Each ideal op-amp with negative feedback holds its inputs equal: V_plus = V_minus."
+             if ideal else "") +
+            (" A real op-amp gives V_out = A(s)*(V_plus - V_minus), A(s) its open-loop gain"
+             " (with rout: that source behind rout, and node out gets an ordinary KCL)."
+             if len(ideal) < len([p for p in circuit.parts if p.kind == "opamp"]) else "")
+            or "The circuit has no op-amp.")
+    feedback = feedback or {}
+    notes = [f.message for f in feedback.values() if f.kind in ("positive", "none")]
+    if notes:
+        text += " NOTE: " + " NOTE: ".join(n[0].upper() + n[1:] + "." for n in notes)
+    return Step("opamps", "Op-amp equations", text.strip(), tuple(opamp_eqs),
+                data={"feedback": {pid: f.kind for pid, f in feedback.items()}})
 
 
 def substitution_step(circuit: Circuit, known: dict[str, sympy.Expr], written: list[Equation],

@@ -29,7 +29,9 @@ from dataclasses import dataclass, replace
 import sympy
 
 from nodeterm.engine.circuit.model import Circuit
+from nodeterm.engine.equations.connectivity import connectivity_warnings
 from nodeterm.engine.equations.equation import Equation, Step
+from nodeterm.engine.equations.feedback import feedback_warnings, opamp_feedback
 from nodeterm.engine.errors import Warning
 from nodeterm.engine.equations.procedure import (_Context, _check_connected, _dc_path_warnings, kcl_step, opamp_step, reference_step,
                         sources_step, substitution_step, trees, voltage_tree)
@@ -81,12 +83,14 @@ def build_system(circuit: Circuit) -> "System":
     known, source_eqs, opamp_eqs, set_by_sources, skipped, sources = sources_step(
         circuit, ctx, branches, forest, components, ref_root, needed, unknown_nodes)
     kcl_eqs, kcl = kcl_step(circuit, ctx, components, ref_root, needed, skipped, set_by_sources)
-    opamps = opamp_step(circuit, opamp_eqs)
+    feedback = opamp_feedback(circuit)
+    opamps = opamp_step(circuit, opamp_eqs, feedback)
     equations = tuple(source_eqs + kcl_eqs + opamp_eqs)
     reduced, eliminated, red_unknowns, substitution = substitution_step(
         circuit, known, source_eqs + kcl_eqs + opamp_eqs, unknowns)
     steps = [reference, sources, kcl, opamps, substitution]
-    warnings = list(circuit.warnings) + _dc_path_warnings(circuit)
+    warnings = (list(circuit.warnings) + connectivity_warnings(circuit) + feedback_warnings(feedback)
+                + _dc_path_warnings(circuit))
     return System(circuit=circuit, equations=equations, unknowns=tuple(unknowns), skipped=skipped,
                   steps=tuple(steps), reduced_equations=tuple(reduced), reduced_unknowns=red_unknowns,
                   eliminated=eliminated, needed=tuple(sorted(needed)), values={},
