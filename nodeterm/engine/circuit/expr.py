@@ -14,9 +14,12 @@ The language::
     power      := atom (("^" | "**") unary)?          right-associative
     atom       := NUMBER | NAME | "sqrt" "(" expression ")" | "pi" | "(" expression ")"
     NUMBER     := digits [. digits] [e[+-]digits] [SI prefix] [unit]
+                | digits LETTER digits [unit]             IEC 60062 letter-digit code
 
-SI prefixes: p n u µ m k M G T (``m`` milli, ``M`` mega). Units (ignored for the
-value, kept for readability): Ω ohm F H V A S Hz.
+SI prefixes: p n u µ m k M G T (``m`` milli, ``M`` mega). Units: Ω ohm F H V A S Hz;
+they do not change the value, and :mod:`.units` checks them against what the value
+sets. The letter-digit code writes the letter for the decimal point: ``4k7`` = 4.7k,
+``2R2`` = 2.2 ohm, ``1M5`` = 1.5M, ``4n7`` = 4.7n (R and K as well as the SI letters).
 
 Limits keep hostile input from running for long: text length, nesting depth,
 size of exponents and of numeric literals.
@@ -76,6 +79,13 @@ _NUMBER = re.compile(
     r"(?P<mant>(?:[0-9]+\.?[0-9]*|\.[0-9]+))(?P<exp>[eE][+-]?[0-9]+)?"
     r"(?P<prefix>[pnuµμmkMGT])?(?P<unit>ohm|Ω|Hz|F|H|V|A|S)?"
 )
+_CODE = re.compile(  # IEC 60062 letter-digit code: 4k7, 2R2, 1M5, 4n7 (the letter is the decimal point)
+    r"(?P<int>[0-9]+)(?P<mark>[RKkMGTpnuµμm])(?P<frac>[0-9]+)(?P<unit>ohm|Ω|Hz|F|H|V|A|S)?"
+)
+_CODE_SCALE = {"R": sympy.Integer(1), "K": sympy.Integer(10**3), **SI_PREFIXES}
+_UNIT_SPELLINGS = {"ohm": "ohm", "ohms": "ohm", "f": "F", "farad": "F", "h": "H", "henry": "H", "v": "V",
+                   "volt": "V", "volts": "V", "a": "A", "amp": "A", "amps": "A", "s": "S", "hz": "Hz",
+                   "siemens": "S"}
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
 _DIGITS = "0123456789"  # ASCII only: str.isdigit() and \d also accept ¹ or ٣
 _OPERATORS = ("**", "+", "-", "*", "/", "^", "(", ")")
@@ -87,6 +97,7 @@ class Token:
     text: str
     column: int  # 1-based
     value: sympy.Expr | None = None
+    unit: str = ""  # the unit written after a number ("ohm", "F", ...; "R" for the IEC code 2R2)
 
 
 def _number_value(match: re.Match, column: int) -> sympy.Expr:
@@ -107,6 +118,59 @@ def _number_value(match: re.Match, column: int) -> sympy.Expr:
     return value
 
 
+def _code_token(m: re.Match, column: int) -> Token:
+    """A number in the IEC 60062 letter-digit code (IEC 60062, marking codes for resistors and capacitors;
+    from memory): the letter stands for the decimal point and the multiplier, R for units of ohms."""
+    mark, unit = m.group("mark"), m.group("unit") or ""
+    if mark == "R":
+        if unit not in ("", "ohm", "Ω"):
+            raise ExpressionError(f"{m.group(0)!r}: R in the letter-digit code marks ohms, not {unit}",
+                                  hint=f"write {m.group('int')}R{m.group('frac')} for ohms", column=column)
+        unit = unit or "R"
+    value = sympy.Rational(f"{m.group('int')}.{m.group('frac')}") * _CODE_SCALE[mark]
+    return Token("num", m.group(0), column, value, unit)
+
+
+def _number_advice(m: re.Match, rest: str) -> str:
+    """How to fix a number followed by letters that are neither a prefix nor a unit (targeted where we can)."""
+    number, prefix = m.group(0), m.group("prefix")
+    mant = m.group("mant") + (m.group("exp") or "")
+    if rest.startswith("K") and not prefix and not m.group("unit"):
+        return f"K is not an SI prefix (it is the kelvin): write {mant}k for kilo"
+    if prefix in ("m", "M") and not m.group("unit") and rest.lower().startswith("eg"):
+        return (f"'meg' is not an SI prefix: write {mant}M for mega (upper-case M; lower-case m is milli), "
+                f"e.g. {mant}M or {mant}Mohm")
+    unit = m.group("unit") or ""
+    if unit and (unit + rest).lower() in _UNIT_SPELLINGS:
+        word, base = (unit + rest).lower(), number[: len(number) - len(unit)]
+    elif not unit and rest.lower() in _UNIT_SPELLINGS:
+        word, base = rest.lower(), number
+    else:
+        word = base = ""
+    if word:
+        return f"units are written ohm or Ω, F, H, V, A, S, Hz (case matters): write {base}{_UNIT_SPELLINGS[word]}"
+    return ("a number may be followed by one SI prefix (p n u µ m k M G T) and one unit "
+            "(Ω ohm F H V A S Hz), e.g. 4.7k, 100nF, 2.2kohm, or be written in the letter-digit code "
+            "4k7; write * between a number and a name")
+
+
+def _spaced_advice(number: Token, word: Token) -> str | None:
+    """Advice for a number followed, after a space, by a prefix, unit or digits: ``10 k``, ``100 nF``, ``1 000``."""
+    if word.kind == "num":
+        return f"remove the space inside the number: write {number.text}{word.text}"
+    if word.text == "K":
+        return f"remove the space, and write k for kilo (K is the kelvin): {number.text}k"
+    if word.text.lower() in ("meg", "megohm"):
+        return f"remove the space, and write M for mega: {number.text}M"
+    try:
+        joined = tokenize(number.text + word.text)
+    except ExpressionError:
+        return None
+    if len(joined) == 2:  # one number, then the end
+        return f"remove the space inside the number: write {number.text}{word.text}"
+    return None
+
+
 def tokenize(text: str) -> list[Token]:
     """Split ``text`` into tokens, or raise :class:`ExpressionError` with a column.
 
@@ -125,18 +189,21 @@ def tokenize(text: str) -> list[Token]:
             i += 1
             continue
         if ch in _DIGITS or (ch == "." and i + 1 < len(text) and text[i + 1] in _DIGITS):
+            code = _CODE.match(text, i)
+            if code and not (code.end() < len(text) and (text[code.end()].isalnum() or text[code.end()] in "_.")):
+                tokens.append(_code_token(code, col))
+                i = code.end()
+                continue
             m = _NUMBER.match(text, i)
             assert m is not None  # a digit always starts a number
             end = m.end()
             if end < len(text) and (text[end].isalnum() or text[end] in "_µμΩ."):
                 tail = _NAME.match(text, end)
                 bad = text[i:tail.end()] if tail else text[i:end + 1]
-                raise ExpressionError(
-                    f"cannot read number {bad!r}",
-                    hint="a number may be followed by one SI prefix (p n u µ m k M G T) and one unit "
-                         "(Ω ohm F H V A S Hz), e.g. 4.7k, 100nF, 2.2kohm; write * between a number and a name",
-                    column=col)
-            tokens.append(Token("num", m.group(0), col, _number_value(m, col)))
+                raise ExpressionError(f"cannot read number {bad!r}", hint=_number_advice(m, text[end:tail.end()]
+                                                                                         if tail else ""),
+                                      column=col)
+            tokens.append(Token("num", m.group(0), col, _number_value(m, col), m.group("unit") or ""))
             i = end
             continue
         if ch.isalpha() or ch == "_":
@@ -197,8 +264,10 @@ class _Parser:
         value = self.expression()
         if self.tok.kind != "end":
             tok = self.tok
+            before = self.tokens[self.pos - 1] if self.pos else None
+            advice = _spaced_advice(before, tok) if before is not None and before.kind == "num" else None
             raise ExpressionError(f"unexpected {tok.text!r}",
-                                  hint="write an operator (+ - * / ^) between values", column=tok.column)
+                                  hint=advice or "write an operator (+ - * / ^) between values", column=tok.column)
         return value
 
     def expression(self) -> sympy.Expr:

@@ -19,12 +19,13 @@ from pathlib import Path
 
 import sympy
 
-from nodeterm.engine.errors import InputError, Warning
+from nodeterm.engine.errors import InputError, Warning, did_you_mean
 from nodeterm.engine.circuit.expr import MAX_LITERAL_DIGITS, ExpressionError, parse_expression
 from nodeterm.engine.circuit.file_lines import _Lines
 from nodeterm.engine.circuit.model import Circuit, FindItem, HandItem, Parameter
 from nodeterm.engine.circuit.parts import KINDS, Part, suggest_kind
 from nodeterm.engine.circuit.size_limits import _SizeLimits
+from nodeterm.engine.circuit.units import EXPECTED, UNSTATED, Dim, dimension, mismatch
 from nodeterm.engine.symbols import I, V, param, s
 
 MAX_FILE_BYTES = 5_000_000
@@ -88,9 +89,10 @@ class _Loader:
                                  "part values may use parameters and s, not V_ or I_ names",
                         }.get(table, hint)
                 name = err.message.split("'")[1] if "'" in err.message else ""
-                close = difflib.get_close_matches(name, list(getattr(self, "param_names", ())), n=1)
-                if close:
-                    hint = f"did you mean {close[0]!r}? " + hint
+                names = list(getattr(self, "param_names", ()))
+                if table == "find":  # a quantity: also V_<node>, I_<part>
+                    names += list(getattr(self, "quantity_names", ()))
+                hint = did_you_mean(name, names) + hint
             raise self.error(f"{what}: {err.message} in {raw!r}", hint=hint, line=line,
                              column=column) from None
 
@@ -104,6 +106,8 @@ class _Loader:
             line = int(m.group(1)) if m else None
             column = int(m.group(2)) if m else None
             what = re.sub(r"\s*\(at line \d+, column \d+\)", "", msg) or "invalid TOML"
+            if msg.startswith(("Cannot overwrite", "Cannot declare")) and self.where.repeated:
+                raise self.repeated_error() from None
             raise self.error(f"TOML syntax error: {what}",
                              hint="circuit files are TOML 1.0: key = value, strings in double quotes, "
                                   "one part per line as an inline table { ... }",
@@ -147,6 +151,21 @@ class _Loader:
                        parameters=parameters, find=find, hand=hand, path=self.file,
                        warnings=tuple(self.warnings), source_text=self.text)
 
+    def repeated_error(self) -> InputError:
+        """A name or table written twice, with both lines (TOML only says it 'cannot overwrite a value')."""
+        table, key, first, again = self.where.repeated[0]
+        column = len(self.where.lines[again - 1]) - len(self.where.lines[again - 1].lstrip()) + 1
+        if not key:
+            return self.error(f"table [{table}] is written twice, on lines {first} and {again}",
+                              hint=f"put everything of [{table}] under one [{table}] header", line=again,
+                              column=column)
+        what = {"parts": f"part {key}", "parameters": f"parameter {key}", "find": f"[find] {key}",
+                "hand": f"[hand] {key}", "": f"top-level key {key}"}.get(table, f"{key} in [{table}]")
+        hint = ({"parts": "give each part its own id (e.g. the next free number) or delete one of the lines"}
+                .get(table, "keep one of the two lines"))
+        return self.error(f"{what} is defined twice, on lines {first} and {again}", hint=hint, line=again,
+                          column=column)
+
     # --- parameters -------------------------------------------------------
     def parameters(self, table: dict) -> dict[str, Parameter]:
         names = list(table)
@@ -189,7 +208,57 @@ class _Loader:
             result[name] = Parameter(name, value, line, tolerance, text, distribution)
         self.check_cycles(result)
         self.limits.check_parameters(result)
+        self.param_dims = self.parameter_dimensions(table, result)
         return result
+
+    def parameter_dimensions(self, table: dict, params: dict[str, Parameter]) -> dict[str, Dim]:
+        """The unit each parameter's value states (units.py), in dependency order (cycles are refused already)."""
+        dims: dict[str, Dim] = {}
+
+        def dim(name: str) -> Dim:
+            if name in dims:
+                return dims[name]
+            p = params[name]
+            raw = table[name]["value"] if isinstance(table[name], dict) else table[name]
+            if p.value is None:
+                dims[name] = UNSTATED
+                return UNSTATED
+            deps = {str(x) for x in p.value.free_symbols if str(x) in params}
+            names = {d: dim(d) for d in sorted(deps)}
+            found = self.dimension_of(raw, names, table="parameters", key=name, field=None,
+                                      what=f"parameter {name}")
+            # a parameter written as a plain number has no stated unit (Span = "16m" may be A/V)
+            dims[name] = UNSTATED if found.status == "pure" else found
+            return dims[name]
+
+        for name in params:
+            dim(name)
+        return dims
+
+    def dimension_of(self, raw: object, names: dict, *, table: str, key: str, field: str | None, what: str) -> Dim:
+        try:
+            return dimension(raw, names)
+        except ExpressionError as err:
+            line = self.where.key(table, key)
+            base = self.where.column_of(line, raw, after=field or "") if isinstance(raw, str) else None
+            column = base + err.column - 1 if base is not None and err.column else None
+            raise self.error(f"{what}: {err.message} in {raw!r}", hint=err.hint, line=line, column=column) from None
+
+    def check_unit(self, kind: str, key: str, raw: object, pid: str, field: str) -> None:
+        """Refuse a value whose stated unit does not fit what it sets (a resistor value in F...)."""
+        if not isinstance(raw, str):
+            return
+        dims = getattr(self, "param_dims", {})
+        dim = self.dimension_of(raw, dims, table="parts", key=pid, field=field, what=f"part {pid} {key}")
+        wrong = mismatch(kind, key, dim)
+        if wrong:
+            line = self.where.key("parts", pid)
+            via = [n for n in re.findall(r"[A-Za-z_][A-Za-z0-9_]*", raw) if dims.get(n, UNSTATED).status == "stated"]
+            hint = (f"check the unit of parameter {via[0]}" if via else
+                    f"write the {key} of {pid} in {Dim('stated', EXPECTED[(kind, key)]).text}"
+                    " (or leave the unit out)")
+            raise self.error(f"part {pid} {key} {raw!r} {wrong}", hint=hint, line=line,
+                             column=self.where.column_of(line, raw, after=field))
 
     def tolerance(self, raw: object, name: str, line: int | None) -> sympy.Expr | None:
         if raw is None:
@@ -290,7 +359,8 @@ class _Loader:
         for p in parts:
             if isinstance(p.control, str) and p.control not in ids:
                 raise self.error(f"part {p.id}: control names part {p.control!r}, which does not exist",
-                                 hint="control = \"ID\" must name a part of [parts]", line=p.line)
+                                 hint=did_you_mean(p.control, ids) + "control = \"ID\" must name a part of [parts]",
+                                 line=p.line)
             if isinstance(p.control, str) and p.control == p.id:
                 raise self.error(f"part {p.id} is controlled by its own current",
                                  hint="name another part in control", line=p.line)
@@ -340,9 +410,11 @@ class _Loader:
         if "value" in raw:
             value = self.expression(raw["value"], what=f"part {pid} value", table="parts", key=pid,
                                     field="value", resolve=resolve)
+            self.check_unit(cls.kind, "value", raw["value"], pid, "value")
         if "gain" in raw:
             gain = self.expression(raw["gain"], what=f"part {pid} gain", table="parts", key=pid,
                                    field="gain", resolve=resolve)
+            self.check_unit(cls.kind, "gain", raw["gain"], pid, "gain")
         extra = []
         for key in cls.optional:
             if key in raw and key != "gain":
@@ -353,10 +425,13 @@ class _Loader:
                                          hint='write rails = ["-12", "12"]', line=line)
                     pair = tuple(self.expression(v, what=f"part {pid} rails", table="parts", key=pid,
                                                  field="rails", resolve=resolve) for v in r)
+                    for v in r:
+                        self.check_unit(cls.kind, "rails", v, pid, "rails")
                     extra.append((key, pair))
                 else:
                     extra.append((key, self.expression(raw[key], what=f"part {pid} {key}", table="parts",
                                                        key=pid, field=key, resolve=resolve)))
+                    self.check_unit(cls.kind, key, raw[key], pid, key)
         return cls(id=pid, nodes=nodes, line=line, value=value, gain=gain, control=control,
                    extra=tuple(extra))
 
@@ -422,12 +497,14 @@ class _Loader:
             for n in p.controls():
                 if n not in seen:
                     raise self.error(f"part {p.id}: control node {n!r} is not connected to any part",
-                                     hint="control nodes must be nodes of the circuit", line=p.line)
+                                     hint=did_you_mean(n, seen) + "control nodes must be nodes of the circuit",
+                                     line=p.line)
         return tuple(seen)
 
     def find(self, table: dict, parameters: dict[str, Parameter], nodes: tuple[str, ...],
              parts: list[Part]) -> dict[str, FindItem]:
         resolve = quantity_resolver(parameters, nodes, [p.id for p in parts])
+        self.quantity_names = [f"V_{n}" for n in nodes] + [f"I_{p.id}" for p in parts] + ["s"]
         out: dict[str, FindItem] = {}
         for name, raw in table.items():
             line = self.where.key("find", name)
