@@ -11,6 +11,7 @@ The CLI prints ``str(err)`` and exits with status 2; nothing else is shown.
 
 from __future__ import annotations
 
+import difflib
 from dataclasses import dataclass
 
 MAX_MESSAGE = 300  # characters of ``message`` shown by ``str(err)``; the middle of a longer one is elided
@@ -96,3 +97,18 @@ class Warning:  # noqa: A001 - a domain name, shadows the builtin only inside th
 
     def as_dict(self) -> dict[str, str]:
         return {"code": self.code, "message": self.message, "part": self.part}
+
+
+def did_you_mean(word: object, choices) -> str:
+    """``"did you mean 'in'? "`` when ``word`` is a near miss of one of ``choices`` (case ignored), else ``""``.
+
+    >>> did_you_mean("V_outt", ["V_out", "V_in"]), did_you_mean("OUT", ["out"]), did_you_mean("zz", ["out"])
+    ("did you mean 'V_out'? ", "did you mean 'out'? ", '')
+    """
+    if not isinstance(word, str):
+        return ""
+    choices = [c for c in choices if c != word]
+    lower = {c.lower(): c for c in choices}
+    close = difflib.get_close_matches(word.lower(), list(lower), n=1)
+    return f"did you mean {lower[close[0]]!r}? " if close else ""
+

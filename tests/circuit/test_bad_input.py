@@ -302,3 +302,39 @@ def test_near_misses_get_a_did_you_mean(tmp_path, capsys):
         assert main(["solve", str(f)]) == 2
         err = capsys.readouterr().err
         assert f"{f}:5" in err and expected in err
+
+
+# ----------------------------------------------------------------------------- names written twice, near misses
+def test_duplicate_part_id_names_the_part_and_both_lines(tmp_path, capsys):
+    """TOML only says it cannot overwrite a value; the message names the part and both lines."""
+    text = DIVIDER + 'R1 = { kind = "resistor", nodes = ["out", "gnd"], value = "1k" }\n'
+    message = refused(tmp_path, text, capsys, "part R1 is defined twice, on lines 7 and 9", line=9, column=1)
+    assert "Cannot overwrite" not in message
+
+
+def test_duplicate_parameter_and_table(tmp_path, capsys):
+    text = DIVIDER.replace('Rbot = "4.7k"', 'Rbot = "4.7k"\nRtop = "1k"')
+    refused(tmp_path, text, capsys, "parameter Rtop is defined twice, on lines 3 and 5", line=5)
+    text = DIVIDER + '[parts]\nR3 = { kind = "resistor", nodes = ["out", "gnd"], value = "1k" }\n'
+    refused(tmp_path, text, capsys, "table [parts] is written twice, on lines 5 and 9", line=9)
+
+
+def test_find_name_typo_gets_did_you_mean(tmp_path, capsys):
+    text = DIVIDER + '[find]\nratio = "V_outt/V_in"\n'
+    message = refused(tmp_path, text, capsys, "[find] ratio: unknown name 'V_outt'", line=10)
+    assert "did you mean 'V_out'?" in message
+    text = DIVIDER + '[find]\ncurrent = "I_R1x"\n'
+    assert "did you mean 'I_R1'?" in refused(tmp_path, text, capsys, "unknown name 'I_R1x'", line=10)
+
+
+def test_opamp_input_typo_gets_node_name(tmp_path, capsys):
+    text = DIVIDER + 'U1 = { kind = "opamp", plus = "outt", minus = "fb", out = "fb" }\n'
+    message = refused(tmp_path, text, capsys, "node outt has no path to the reference", line=9, column=32)
+    assert "did you mean 'out'?" in message
+
+
+def test_control_names_get_did_you_mean(tmp_path, capsys):
+    text = DIVIDER + 'F1 = { kind = "cccs", nodes = ["out", "gnd"], control = "R11", gain = "2" }\n'
+    assert "did you mean 'R1'?" in refused(tmp_path, text, capsys, "control names part 'R11'", line=9)
+    text = DIVIDER + 'G1 = { kind = "vccs", nodes = ["out", "gnd"], control = ["inn", "gnd"], gain = "2" }\n'
+    assert "did you mean 'in'?" in refused(tmp_path, text, capsys, "control node 'inn'", line=9)

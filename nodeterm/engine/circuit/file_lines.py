@@ -25,16 +25,22 @@ class _Lines:
         self.lines = text.splitlines()
         self.keys: dict[tuple[str, str], int] = {}
         self.tables: dict[str, int] = {}
+        self.repeated: list[tuple[str, str, int, int]] = []  # (table, key or "", first line, repeated line)
         table = ""
         for number, line in enumerate(self.lines, start=1):
             m = _HEADER.match(line)
             if m:
                 table = m.group(1).strip().strip("\"'")
-                self.tables.setdefault(table, number)
+                first = self.tables.setdefault(table, number)
+                if first != number:
+                    self.repeated.append((table, "", first, number))
                 continue
             m = _KEY.match(line)
             if m:
-                self.keys.setdefault((table, m.group(1).strip("\"'")), number)
+                key = m.group(1).strip("\"'")
+                first = self.keys.setdefault((table, key), number)
+                if first != number:
+                    self.repeated.append((table, key, first, number))
 
     def key(self, table: str, key: str) -> int | None:
         return self.keys.get((table, key))

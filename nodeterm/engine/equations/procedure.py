@@ -28,7 +28,7 @@ from __future__ import annotations
 import sympy
 
 from nodeterm.engine.equations.equation import OPAMP_KINDS, Equation, Step, Term, _label
-from nodeterm.engine.errors import CircuitError, Warning
+from nodeterm.engine.errors import CircuitError, Warning, did_you_mean
 from nodeterm.engine.circuit.model import Circuit
 from nodeterm.engine.circuit.parts import Part
 from nodeterm.engine.symbols import I, V
@@ -137,8 +137,21 @@ def _check_connected(circuit: Circuit) -> None:
                            f"{'have' if len(lost) > 1 else 'has'} no path to the reference node "
                            f"{circuit.reference!r}{extra}: {'their voltages are' if len(lost) > 1 else 'its voltage is'} "
                            "not defined",
-                           hint=f"connect {lost[0]!r} to the rest of the circuit (e.g. a resistor to "
-                                f"{circuit.reference!r}) or remove the parts on it", file=circuit.path)
+                           hint=did_you_mean(lost[0], [n for n in circuit.nodes if n not in lost])
+                           + f"connect {lost[0]!r} to the rest of the circuit (e.g. a resistor to "
+                             f"{circuit.reference!r}) or remove the parts on it", file=circuit.path,
+                           **_where_node(circuit, lost[0]))
+
+
+def _where_node(circuit: Circuit, node: str) -> dict:
+    """Line and column of the first pin that names ``node`` (for error messages), as keyword arguments."""
+    part = next((p for p in circuit.parts if node in p.terminals), None)
+    if part is None or part.line is None:
+        return {}
+    lines = circuit.source_text.splitlines()
+    text = lines[part.line - 1] if 0 < part.line <= len(lines) else ""
+    at = text.find(f'"{node}"')
+    return {"line": part.line, "column": at + 2 if at >= 0 else None}
 
 
 def _dc_path_warnings(circuit: Circuit) -> list[Warning]:
