@@ -7,9 +7,16 @@ Each parameter with a ``tolerance`` varies independently around its nominal valu
   (common practice, no source).
 
 A quantity is turned once into a NumPy function with ``sympy.lambdify`` and evaluated on
-whole batches of samples, never sample by sample in SymPy. Worst case takes each
-parameter to the end of its band given by the sign of its sensitivity, and, with few
-parameters, checks that against every corner of the tolerance box.
+whole batches of samples, never sample by sample in SymPy.
+
+Worst case by derivative signs (the extreme-value or vertex method: a quantity monotonic
+in each parameter over the tolerance box takes its extremes at a corner, and the corner
+of the maximum has each parameter at the end where the partial derivative points;
+Spence and Soin, Tolerance Design of Electronic Circuits, worst-case analysis, from
+memory). The direction is the sign of dF/dx, not of the normalized sensitivity
+S = (dF/dx)*(x/F): the two differ when F (an inverting gain) or x is negative, since
+sign(dF/dx) = sign(S)*sign(F)*sign(x). With few parameters the result is checked
+against every corner of the box.
 """
 
 from __future__ import annotations
@@ -190,8 +197,7 @@ def worst_case(quantities: dict[str, sympy.Expr], spread_list: list[Spread], nom
         fixed = _fixed(as_expr(expr), nominal, set(names))
         fn = _function(fixed, names)
         nom = float(fixed.xreplace(nominal))
-        signs = sign_of(sens, qname)
-        hi_at = {n: signs.get(n, 0) for n in names}
+        hi_at = _uphill(fixed, spread_list, nom, sign_of(sens, qname))
         lo_at = {n: -v for n, v in hi_at.items()}
 
         def at(ends: dict) -> float:
@@ -206,3 +212,24 @@ def worst_case(quantities: dict[str, sympy.Expr], spread_list: list[Spread], nom
             c_lo, c_hi, corners = float(vals.min()), float(vals.max()), len(grid)
         out[qname] = WorstCase(qname, nom, at(lo_at), at(hi_at), c_lo, c_hi, corners, lo_at, hi_at)
     return out
+
+
+def _uphill(fixed: sympy.Expr, spread_list: list[Spread], nominal: float, s_signs: dict[str, int]) -> dict[str, int]:
+    """Parameter -> +1/-1: the end of its band that raises the quantity (0 when it does not move it).
+
+    The sign of dF/dx at the nominal point; where that cannot be evaluated, sign(S)*sign(F)*sign(x)
+    from the normalized sensitivity S.
+    """
+    point = {param(sp.name): sympy.Float(sp.nominal) for sp in spread_list}
+    out = {}
+    for sp in spread_list:
+        x = param(sp.name)
+        try:
+            d = complex(sympy.diff(fixed, x).xreplace(point))
+            out[sp.name] = 0 if d.real == 0 else (1 if d.real > 0 else -1)
+        except (TypeError, ValueError, ZeroDivisionError):
+            f_sign = 0 if nominal == 0 else (1 if nominal > 0 else -1)
+            x_sign = 1 if sp.nominal >= 0 else -1
+            out[sp.name] = s_signs.get(sp.name, 0) * f_sign * x_sign
+    return out
+
