@@ -29,6 +29,7 @@ from nodeterm.cli import main
 from nodeterm.engine import InputError, build_system, parse_circuit
 from nodeterm.engine.equations.connectivity import connectivity_warnings
 from nodeterm.engine.equations.feedback import opamp_feedback
+from nodeterm.engine.solving.solve import solve_system
 from nodeterm.engine.symbols import s
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -252,7 +253,7 @@ def outcome(text: str, values: dict):
     """('error',) or (warnings, exact node voltages, currents and [find] at one point of s)."""
     try:
         system = build_system(parse_circuit(text))
-        solution = system.substitute(values).solve()
+        solution = solve_system(system.substitute(values))
     except InputError:
         return ("error",)
     point = sympy.Rational(7, 3)
