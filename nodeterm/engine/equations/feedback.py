@@ -92,6 +92,15 @@ def _numeric_values(circuit, values: dict | None, rng) -> list[dict]:
     if values:
         resolved.update({k: sympy.sympify(v, strict=True) for k, v in values.items()})
     names = list(circuit.parameters)
+    # only the values in the matrix matter: independent sources are set to zero
+    used = set()
+    for p in circuit.parts:
+        exprs = [p.gain] + [v for _, v in p.extra]
+        if p.kind not in ("voltage_source", "current_source"):
+            exprs.append(p.value)
+        for e in exprs:
+            for x in (e if isinstance(e, tuple) else (e,)):
+                used |= {str(y) for y in getattr(x, "free_symbols", ())}
     free = set()
     for n in names:
         v = resolved.get(n)
@@ -99,7 +108,14 @@ def _numeric_values(circuit, values: dict | None, rng) -> list[dict]:
             free.add(n)
         else:
             free |= {str(x) for x in v.free_symbols if str(x) in circuit.parameters}
-    free = sorted(free)
+    closure, stack = set(), [n for n in used if n in circuit.parameters]
+    while stack:  # parameters the matrix depends on, through other parameters
+        n = stack.pop()
+        if n not in closure:
+            closure.add(n)
+            v = circuit.parameters[n].value
+            stack += [str(x) for x in getattr(v, "free_symbols", ()) if str(x) in circuit.parameters]
+    free = sorted(free & closure)
     sets = []
     levels = np.linspace(-3, 6, SAMPLES)  # stratified: each parameter takes every level once
     order = {n: rng.permutation(SAMPLES) for n in free}
@@ -135,7 +151,7 @@ def _sigmas(circuit, numbers: dict) -> list[float]:
     rates = [1 / (x * y) for x in r for y in c] + [x / y for x in r for y in ell]
     rates += [1 / math.sqrt(x * y) for x in ell for y in c]
     lo, hi = math.log10(min(rates)) - 3, math.log10(max(rates)) + 3
-    count = min(240, int(6 * (hi - lo)) + 1)
+    count = min(100, int(4 * (hi - lo)) + 1)
     grid = list(np.logspace(lo, hi, count))
     return ([] if ell else [0.0]) + grid
 
@@ -144,15 +160,16 @@ def _matrices(model, sigmas: list[float]) -> np.ndarray:
     """The model's matrix at every real s in ``sigmas``, stacked (K, n, n); parameters are numbers already."""
     n, K = model.size, len(sigmas)
     sig = np.asarray(sigmas, dtype=float)
-    coef = np.empty((len(model.coefficients), K))
+    coef = np.zeros((len(model.coefficients), K))
+    in_matrix = set(model.cidx[model.cols >= 0].tolist())  # the right-hand side (sources) is not needed
     for k, c in enumerate(model.coefficients):
+        if k not in in_matrix:
+            continue
         e = sympy.sympify(c, strict=True).xreplace(model.subs)
         if e.free_symbols - {s}:
             raise ValueError("a coefficient has no value")
         if e.has(s):
-            f = sympy.lambdify([s], e, modules="numpy")
-            with np.errstate(divide="ignore", invalid="ignore"):
-                coef[k] = np.broadcast_to(np.asarray(f(sig), dtype=float), (K,))
+            coef[k] = _rational_in_s(e, sig)
         else:
             coef[k] = float(e)
     in_a = model.cols >= 0
@@ -163,28 +180,94 @@ def _matrices(model, sigmas: list[float]) -> np.ndarray:
     return M
 
 
+def _rational_in_s(e: sympy.Expr, sig: np.ndarray) -> np.ndarray:
+    """A coefficient that is a rational function of s (s*C, 1/(s*L)...), evaluated at every sigma."""
+    num, den = sympy.fraction(sympy.together(e))
+    try:
+        pn = [float(c) for c in sympy.Poly(num, s).all_coeffs()]
+        pd = [float(c) for c in sympy.Poly(den, s).all_coeffs()]
+    except (sympy.PolynomialError, TypeError):
+        f = sympy.lambdify([s], e, modules="numpy")
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return np.broadcast_to(np.asarray(f(sig), dtype=float), sig.shape)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.polyval(pn, sig) / np.polyval(pd, sig)
+
+
 def _betas(model, opamps, sigmas: list[float]) -> dict[str, list[tuple[float, float | None]]]:
-    """beta(sigma) of each op-amp over ``sigmas`` (None where the loop could not be solved)."""
+    """beta(sigma) of each op-amp over ``sigmas`` (None where the loop could not be solved).
+
+    Fast path: replacing op-amp U's equation (row j) by V_out = 1 is a rank-one change of the
+    circuit's matrix M, so by the Sherman-Morrison formula the driven solution is z/z[out] with
+    z = M^-1 e_j, and beta = (z[minus] - z[plus])/z[out]: one solve of M serves every op-amp.
+    Where M is singular, or z[out] = 0 (the loop runs through another ideal op-amp), each
+    op-amp's driven matrix is solved on its own (the other op-amps at finite gain if need be).
+    """
     Ms = _matrices(model, sigmas)
-    ok = np.all(np.isfinite(Ms), axis=(1, 2))
+    K, n = Ms.shape[0], Ms.shape[1]
     nidx, bidx = model.node_index, model.branch_index
-    out = {}
+    cols = [bidx[p.id] for p in opamps]
+    E = np.zeros((n, len(cols)))
+    E[cols, range(len(cols))] = 1.0
+    Z = _solve_batch(Ms, E)  # (K, n, m), NaN where M is singular
+    out: dict[str, list] = {p.id: [None] * K for p in opamps}
+    for i, p in enumerate(opamps):
+        zo = Z[:, nidx[p.out], i]
+        zm = Z[:, nidx[p.minus], i] if p.minus in nidx else np.zeros(K)
+        zp = Z[:, nidx[p.plus], i] if p.plus in nidx else np.zeros(K)
+        scale = np.nanmax(np.abs(Z[:, :, i]), axis=1, initial=0.0)
+        ok = np.isfinite(zo) & (np.abs(zo) > 1e-9 * scale)
+        for k in np.flatnonzero(ok):
+            out[p.id][k] = float((zm[k] - zp[k]) / zo[k])
+    finite_ok = np.all(np.isfinite(Ms), axis=(1, 2))
     for p in opamps:
+        todo = [k for k in range(K) if out[p.id][k] is None and finite_ok[k]]
+        if not todo:
+            continue
         others = [q for q in opamps if q.id != p.id]
-        rhs = np.zeros(Ms.shape[:2])
-        rhs[:, bidx[p.id]] = 1.0
-        betas: list[float | None] = [None] * len(sigmas)
+        rhs = np.zeros(n)
+        rhs[bidx[p.id]] = 1.0
         for finite in ((False, True) if others else (False,)):
-            Mu = _driven(_finite(Ms, others, nidx, bidx) if finite else Ms, p, nidx, bidx)
-            todo = [k for k in range(len(sigmas)) if betas[k] is None and ok[k]]
-            for k in todo:
-                x = _solve_scaled(Mu[k], rhs[k])
+            Mu = _driven(_finite(Ms[todo], others, nidx, bidx) if finite else Ms[todo], p, nidx, bidx)
+            for row, k in enumerate(todo):
+                if out[p.id][k] is not None:
+                    continue
+                x = _solve_scaled(Mu[row], rhs)
                 if x is not None:
                     vm = x[nidx[p.minus]] if p.minus in nidx else 0.0
                     vp = x[nidx[p.plus]] if p.plus in nidx else 0.0
-                    betas[k] = float(vm - vp)
-        out[p.id] = list(zip(sigmas, betas))
-    return out
+                    out[p.id][k] = float(vm - vp)
+    return {pid: list(zip(sigmas, betas)) for pid, betas in out.items()}
+
+
+def _solve_batch(Ms: np.ndarray, E: np.ndarray) -> np.ndarray:
+    """Solve Ms[k] Z[k] = E for every k after row and column scaling; NaN where Ms[k] is (nearly) singular."""
+    K, n = Ms.shape[0], Ms.shape[1]
+    Z = np.full((K, n, E.shape[1]), np.nan)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        r = np.abs(Ms).max(axis=2)
+        S = Ms / r[:, :, None]
+        c = np.abs(S).max(axis=1)
+        S = S / c[:, None, :]
+    good = np.all(np.isfinite(S), axis=(1, 2)) & np.all(r > 0, axis=1) & np.all(c > 0, axis=1)
+    idx = np.flatnonzero(good)
+    if idx.size == 0:
+        return Z
+    B = E[None, :, :] / r[idx, :, None]
+    try:
+        Y = np.linalg.solve(S[idx], B)
+        solved = list(zip(idx, Y))
+    except np.linalg.LinAlgError:  # one singular matrix spoils the batch: solve them one by one
+        solved = []
+        for k, b in zip(idx, B):
+            try:
+                solved.append((k, np.linalg.solve(S[k], b)))
+            except np.linalg.LinAlgError:
+                pass
+    for k, y in solved:
+        if np.all(np.isfinite(y)) and np.abs(y).max() < 1e10:  # larger means a singular matrix in rounding
+            Z[k] = y / c[k][:, None]
+    return Z
 
 
 def _solve_scaled(M: np.ndarray, b: np.ndarray) -> np.ndarray | None:
