@@ -125,6 +125,7 @@ def test_letter_digit_r_is_ohms(tmp_path, capsys):
     ("100 nF", "remove the space inside the number: write 100nF"),
     ("10kOhm", "write 10kohm"),
     ("10kohms", "write 10kohm"),
+    ("1ms", "seconds carry no unit here: write 1m"),  # s is the Laplace variable, S the siemens
 ])
 def test_targeted_advice(tmp_path, capsys, value, advice):
     text = FILE.replace('value = "10kohm"', f'value = "{value}"')

@@ -84,7 +84,7 @@ _CODE = re.compile(  # IEC 60062 letter-digit code: 4k7, 2R2, 1M5, 4n7 (the lett
 )
 _CODE_SCALE = {"R": sympy.Integer(1), "K": sympy.Integer(10**3), **SI_PREFIXES}
 _UNIT_SPELLINGS = {"ohm": "ohm", "ohms": "ohm", "f": "F", "farad": "F", "h": "H", "henry": "H", "v": "V",
-                   "volt": "V", "volts": "V", "a": "A", "amp": "A", "amps": "A", "s": "S", "hz": "Hz",
+                   "volt": "V", "volts": "V", "a": "A", "amp": "A", "amps": "A", "hz": "Hz",
                    "siemens": "S"}
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
 _DIGITS = "0123456789"  # ASCII only: str.isdigit() and \d also accept ¹ or ٣
@@ -141,6 +141,9 @@ def _number_advice(m: re.Match, rest: str) -> str:
         return (f"'meg' is not an SI prefix: write {mant}M for mega (upper-case M; lower-case m is milli), "
                 f"e.g. {mant}M or {mant}Mohm")
     unit = m.group("unit") or ""
+    if rest == "s" and not unit:
+        return (f"seconds carry no unit here: write {number} for a time in seconds, or {number}*s for a "
+                "number times the Laplace variable s")
     if unit and (unit + rest).lower() in _UNIT_SPELLINGS:
         word, base = (unit + rest).lower(), number[: len(number) - len(unit)]
     elif not unit and rest.lower() in _UNIT_SPELLINGS:
