@@ -146,3 +146,14 @@ def test_numbers_without_units_are_unchanged():
     assert parse_expression("4.7k") == 4700 and parse_expression("100n") == sympy.Rational(1, 10**7)
     with pytest.raises(InputError):
         parse_expression("4.7k5")
+
+
+def test_set_value_with_the_wrong_unit(tmp_path, capsys):
+    path = tmp_path / "f.toml"
+    path.write_text(FILE, encoding="utf-8")
+    assert main(["solve", str(path), "--set", "Cx=47nF"]) == 0
+    capsys.readouterr()
+    assert main(["solve", str(path), "--set", "Cx=10kohm"]) == 2
+    err = capsys.readouterr().err.strip()
+    assert "Cx = '10kohm' is a resistance (ohm), but a capacitor value is a capacitance (F)" in err
+    assert "\n" not in err

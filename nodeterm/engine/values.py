@@ -26,6 +26,7 @@ from dataclasses import dataclass
 import sympy
 
 from nodeterm.engine.circuit.expr import ExpressionError, parse_expression
+from nodeterm.engine.circuit.units import value_unit_error
 from nodeterm.engine.errors import InputError
 from nodeterm.engine.symbols import as_expr, param
 
@@ -154,6 +155,10 @@ def parse_value(circuit, name: str, raw, source: str | None = None) -> sympy.Exp
         except ExpressionError as err:
             raise InputError(f"value for {name}: {err.message} in {str(raw)!r}", hint=err.hint,
                              column=err.column, file=source) from None
+        wrong = value_unit_error(circuit, name, str(raw))
+        if wrong:
+            raise InputError(wrong, hint="give the value in the unit of what it sets, or without a unit",
+                             file=source)
     if value.has(param(name)):
         raise InputError(f"value for {name} refers to {name} itself", hint="give a plain value", file=source)
     return value

@@ -228,3 +228,34 @@ def mismatch(kind: str, key: str, dim: Dim) -> str | None:
         return None
     need = Dim("stated", want)
     return f"is {dim.what} ({dim.text}), but a {kind.replace('_', ' ')} {key} is {need.what} ({need.text})"
+
+
+def value_unit_error(circuit, name: str, text: str) -> str | None:
+    """Why a value given for parameter ``name`` (``--set``, the workbench) has the wrong unit, or None.
+
+    Checked where a part's value or gain is that parameter itself; a value without a unit is never wrong.
+
+    >>> from nodeterm.engine.circuit.loader import parse_circuit
+    >>> c = parse_circuit('[parameters]\\nRin = "10k"\\n[parts]\\nR1 = { kind = "resistor", nodes = ["a", "gnd"], value = "Rin" }')
+    >>> value_unit_error(c, "Rin", "10uF")
+    "Rin = '10uF' is a capacitance (F), but a resistor value is a resistance (ohm) (Rin is the value of R1)"
+    >>> value_unit_error(c, "Rin", "4k7") is None
+    True
+    """
+    try:
+        dim = dimension(text)
+    except ExpressionError:
+        return None  # the parser reports it
+    if dim.status != "stated":
+        return None
+    from nodeterm.engine.symbols import param
+    symbol = param(name)
+    for p in circuit.parts:
+        keys = [("value", p.value), ("gain", p.gain)] + [(k, v) for k, v in p.extra]
+        for key, expr in keys:
+            if expr == symbol:
+                wrong = mismatch(p.kind, key, dim)
+                if wrong:
+                    return f"{name} = {text!r} {wrong} ({name} is the {key} of {p.id})"
+    return None
+
