@@ -156,8 +156,8 @@ def _sigmas(circuit, numbers: dict) -> list[float]:
     return ([] if ell else [0.0]) + grid
 
 
-def _matrices(model, sigmas: list[float]) -> np.ndarray:
-    """The model's matrix at every real s in ``sigmas``, stacked (K, n, n); parameters are numbers already."""
+def _matrices(model, sigmas: list[float], subs: dict) -> np.ndarray:
+    """The model's matrix at every real s in ``sigmas``, stacked (K, n, n); ``subs`` gives every parameter a number."""
     n, K = model.size, len(sigmas)
     sig = np.asarray(sigmas, dtype=float)
     coef = np.zeros((len(model.coefficients), K))
@@ -165,7 +165,7 @@ def _matrices(model, sigmas: list[float]) -> np.ndarray:
     for k, c in enumerate(model.coefficients):
         if k not in in_matrix:
             continue
-        e = sympy.sympify(c, strict=True).xreplace(model.subs)
+        e = sympy.sympify(c, strict=True).xreplace(subs)
         if e.free_symbols - {s}:
             raise ValueError("a coefficient has no value")
         if e.has(s):
@@ -194,7 +194,7 @@ def _rational_in_s(e: sympy.Expr, sig: np.ndarray) -> np.ndarray:
         return np.polyval(pn, sig) / np.polyval(pd, sig)
 
 
-def _betas(model, opamps, sigmas: list[float]) -> dict[str, list[tuple[float, float | None]]]:
+def _betas(model, opamps, sigmas: list[float], subs: dict) -> dict[str, list[tuple[float, float | None]]]:
     """beta(sigma) of each op-amp over ``sigmas`` (None where the loop could not be solved).
 
     Fast path: replacing op-amp U's equation (row j) by V_out = 1 is a rank-one change of the
@@ -203,7 +203,7 @@ def _betas(model, opamps, sigmas: list[float]) -> dict[str, list[tuple[float, fl
     Where M is singular, or z[out] = 0 (the loop runs through another ideal op-amp), each
     op-amp's driven matrix is solved on its own (the other op-amps at finite gain if need be).
     """
-    Ms = _matrices(model, sigmas)
+    Ms = _matrices(model, sigmas, subs)
     K, n = Ms.shape[0], Ms.shape[1]
     nidx, bidx = model.node_index, model.branch_index
     cols = [bidx[p.id] for p in opamps]
@@ -406,9 +406,10 @@ def opamp_feedback(circuit, values: dict | None = None) -> dict[str, Feedback]:
     branchy = [p for p in opamps if p.branch(circuit.reference) is not None]
     curves: dict[str, list[list]] = {p.id: [] for p in branchy}
     try:
+        model = NumericModel(circuit)  # stamps once; each draw only substitutes numbers
         for numbers in _numeric_values(circuit, values, rng):
-            model = NumericModel(circuit, {k: v for k, v in numbers.items() if v is not None})
-            for pid, curve in _betas(model, branchy, _sigmas(circuit, numbers)).items():
+            subs = {param(k): v for k, v in numbers.items() if v is not None}
+            for pid, curve in _betas(model, branchy, _sigmas(circuit, numbers), subs).items():
                 curves[pid].append(curve)
     except Exception:  # noqa: BLE001 - a check must never stop the procedure; it says "not checked"
         return {p.id: Feedback(p.id, "not-checked", message=f"op-amp {p.id}: its feedback could not be checked")
