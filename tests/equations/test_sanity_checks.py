@@ -32,7 +32,7 @@ from nodeterm.engine.equations.feedback import opamp_feedback
 from nodeterm.engine.solving.solve import solve_system
 from nodeterm.engine.symbols import s
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 CIRCUITS = sorted((ROOT / "circuits").glob("*.toml")) + sorted((ROOT / "tests" / "published").glob("*.toml"))
 
 INVERTING = """\
