@@ -3,109 +3,37 @@
 From the top: the keys of the pane; the magnitude and phase of one [find] quantity in s
 (:class:`~.response_pane.ResponseView`, ``g`` the next quantity, ``w`` the CSV); the
 tolerance run (:class:`~.tolerance_view.ToleranceView`, ``m`` runs, ``c`` cancels); and
-the text of every analysis that applies (:func:`analysis_lines`: transfer functions,
-limits, real op-amp model, sensitivities, cautions).
-
-:func:`analysis_lines` calls the engine's analyses and the analysis presenters,
-each section on its own so that one failing analysis is reported in place and
-the others still show. It is computed on request (the pane shown, or ``a``)
-in a worker, because some analyses take a while.
+the text of every analysis that applies, computed and printed in the solver process
+(:func:`nodeterm.ui.analyses.analysis_lines`) when the pane is shown.
 """
 
 from __future__ import annotations
 
-from textual.containers import VerticalScroll
-from textual.widgets import Static
-
 from nodeterm.ui.response_pane import ResponseView
-from nodeterm.ui.safety import describe, logger
 from nodeterm.ui.tolerance_view import ToleranceView
+from nodeterm.ui.views import PagedVerticalScroll, TextView
 
-KEYS_LINE = ("g next [find] plot  w write CSV  m Monte Carlo  c cancel  "
-             "PgUp/PgDn scroll")
-
-
-def _section(title: str, make) -> list[str]:
-    try:
-        lines = make()
-    except Exception as exc:  # noqa: BLE001 - one analysis failing must not hide the others
-        logger().error("analysis %r failed", title, exc_info=exc)
-        lines = [f"! could not compute: {describe(exc)}"]
-    if not lines:
-        return []
-    return [title, "-" * len(title)] + list(lines) + [""]
+KEYS_LINE = "g next [find] plot  w write CSV  m Monte Carlo  c cancel  PgUp/PgDn scroll"
 
 
-def analysis_lines(system, solution) -> list[str]:
-    """Every analysis that applies to the circuit, as text lines."""
-    from nodeterm.engine.analysis.cautions import LINEAR_NOTE, merge, node_cautions, source_cautions
-    from nodeterm.engine.analysis.limits import check_limits, limit_warnings, limited_opamps
-    from nodeterm.engine.analysis.realopamp import compare_models, has_real_model
-    from nodeterm.engine.analysis.sensitivity import nominal_values, scalar_quantities, sensitivities
-    from nodeterm.engine.analysis.transfer import transfer_functions
-    from nodeterm.present import analysis as show
-
-    circuit = system.circuit
-    out: list[str] = []
-    checks: list = []
-
-    def cautions():
-        extra = source_cautions(circuit, system.values) + node_cautions(solution.node_voltages)
-        return show.warning_lines(merge(system.warnings, extra, limit_warnings(checks)))
-
-    def transfer():
-        tfs = transfer_functions(solution, circuit)
-        lines: list[str] = []
-        for tf in tfs.values():
-            lines += show.transfer_lines(tf) + [""]
-        return lines
-
-    def limits():
-        if not limited_opamps(circuit):
-            return []
-        checks.extend(check_limits(system, solution))
-        return show.limits_lines(checks)
-
-    def real():
-        if not has_real_model(circuit):
-            return []
-        return show.comparison_lines(compare_models(circuit, dict(system.values)))
-
-    def sensitivity():
-        quantities = scalar_quantities(circuit)  # symbolic, then evaluated at the nominal values
-        if not quantities:
-            return []
-        return show.sensitivity_lines(sensitivities(quantities, nominal_values(circuit, dict(system.values))))
-
-    out += _section("Transfer functions of the [find] quantities (in s)", transfer)
-    out += _section("Op-amp output limits (rails, max_current)", limits)
-    out += _section("Real op-amp model against the ideal one", real)
-    out += _section("Normalized sensitivities (% change per % change of a parameter)", sensitivity)
-    out += _section("Cautions", cautions)
-    if not out:
-        out = ["No analysis applies: no [find] quantity depends on s, no op-amp has limits or a real model.", ""]
-    out.append(f"note: {LINEAR_NOTE}")
-    return out
-
-
-class AnalysisPane(VerticalScroll):
+class AnalysisPane(PagedVerticalScroll):
     """Response plots and the tolerance run on top, the text of the analyses below (computed on request)."""
 
     DEFAULT_CSS = """
     AnalysisPane { overflow-y: scroll; }  /* the scrollbar always there: the plots keep their width */
-    AnalysisPane > Static { width: 100%; }
+    AnalysisPane > TextView { width: 100%; }
     #analysis-keys { text-style: reverse; }
     #analysis-text { margin-top: 1; }
     """
 
     def compose(self):
-        yield Static(KEYS_LINE, id="analysis-keys", markup=False)
+        yield TextView(KEYS_LINE, id="analysis-keys")
         yield ResponseView(id="response-view")
         yield ToleranceView(id="tolerance-view")
-        yield Static("(open this pane or press a to run the analyses)", id="analysis-text", markup=False)
+        yield TextView("(open this pane or press a to run the analyses)", id="analysis-text")
 
-    def show_lines(self, lines: list[str]) -> None:
-        self.query_one("#analysis-text", Static).update("\n".join(lines))
+    def show_text(self, text: str) -> None:
+        self.query_one("#analysis-text", TextView).set(text)
 
     def show_system(self, system, solution) -> None:
         """Start the response plots of a solved system and get the tolerance section ready for it."""

@@ -1,13 +1,16 @@
-"""The nodeterm workbench: a thin Textual application over the engine's recorded procedure.
+"""The nodeterm workbench: a thin Textual application over a session of studies.
 
-The App wires panes to the :class:`~.session.Session`; every action is
-guarded (:mod:`.safety`) so that a failure shows a message, is logged, and
-leaves the last good state on screen. Solving (with the printing of the results)
-and the analyses run in a child process driven by a thread worker
-(:mod:`.solver_process`), so SymPy and FLINT never hold the GIL against the event
-loop; cancelling terminates the child, and results for an older system are dropped.
-Every ``@work`` has a ``description``: without one Textual builds it with ``repr()``
-of the arguments (a whole solution) on the event loop.
+The App routes messages and renders; it holds no results of its own. State lives in the
+:class:`~.session.Session`: an undo stack of entries, each an immutable study with the records and
+pane text computed for it. Records (matrix, solution, verdicts, analyses) and their text are
+computed in a child process (:mod:`.solver_process`) and adopted into the entry they were asked
+for, so undo, redo, reload and re-solve always show one study's records together. Pane text comes
+from :mod:`nodeterm.present.panes`; every pane redraws only when its text changes, and nothing is
+written while idle (the busy time ticks once a second, only while busy).
+
+Focus rules: typed text never runs as a command (a focused box takes every printable key); a
+value always lands on the parameter named beside the box (the value dialog, Up/Down choose it);
+pane keys work from every pane except while typing in a box, which Esc leaves.
 """
 
 from __future__ import annotations
@@ -21,28 +24,30 @@ from textual import on, work
 from textual.app import App, SystemCommand
 from textual.binding import Binding
 from textual.css.query import NoMatches
-from textual.reactive import var
-from textual.widgets import Footer, Input, Static, TabbedContent, TabPane
+from textual.markup import escape
+from textual.widgets import Footer, Input, TabbedContent, TabPane
 from textual.worker import get_current_worker
 
-from nodeterm.engine import InputError, load_circuit
-from nodeterm.present.text import matrix_lines, report, steps_lines
+from nodeterm.engine import InputError
+from nodeterm.present import panes
 from nodeterm.ui import solver_process, threads
-from nodeterm.ui.analysis_pane import AnalysisPane, analysis_lines
+from nodeterm.ui.analysis_pane import AnalysisPane
 from nodeterm.ui.circuit_pane import CircuitPane
 from nodeterm.ui.claims_pane import ClaimsPane
-from nodeterm.present.export import EXTENSIONS, FORMATS, render, write_atomic
-from nodeterm.ui.dialogs import ConfirmScreen, ExportScreen, HelpScreen, PathScreen
+from nodeterm.ui.dialogs import ConfirmScreen, ExportScreen, HelpScreen, PathScreen, ValueScreen
 from nodeterm.ui.keys import KEYS, help_text
 from nodeterm.ui.matrix_pane import MatrixPane
-from nodeterm.ui.results_pane import ResultsPane, results_text
+from nodeterm.ui.results_pane import ResultsPane
 from nodeterm.ui.safety import describe, guarded, logger
-from nodeterm.ui.session import Session
+from nodeterm.ui.session import Entry, Session
 from nodeterm.ui.steps_pane import StepsPane
 from nodeterm.ui.values_pane import ValuesPane
+from nodeterm.ui.views import TextView
 
 PANES = ("circuit", "steps", "values", "matrix", "results", "claims", "analysis")
 POLL_SECONDS = 1.0
+NO = {"matrix": "no matrix", "solution": "no results", "verdicts": "claims not checked", "analysis": "no analyses"}
+FOCUS = {"steps": "#equation-list", "values": "#param-list", "claims": "#claim-input"}
 
 
 class Workbench(App):
@@ -52,28 +57,23 @@ class Workbench(App):
     TITLE = "nodeterm"
     BINDINGS = [Binding(k.keys, k.action, k.shown or k.title, show=bool(k.shown)) for k in KEYS]
 
-    system = var(None, always_update=True)
-    two_d = var(False)
-
     def __init__(self, path: str | None = None, poll: bool = True) -> None:
         super().__init__()
         solver_process.start_server()  # before Textual takes over sys.stderr
         self.start_path = path
         self.poll = poll
         self.session = Session()
-        self.solution = None        # solution of self.system, when known
-        self.matrix_form = None
-        self.busy_since: float | None = None
-        self.busy_what = ""
-        self.last_error = ""        # last message shown (tests and the status line read it)
-        self.verdicts: list = []    # audit verdicts of the claims, for the exports
-        self.typed_claims: dict[str, str] = {}  # claims typed in the claims pane, name -> text
-        self.analysed = None        # the system whose analyses the analysis pane shows
+        self.two_d = False
+        self.busy: dict[str, tuple[str, float]] = {}  # worker group -> (what, since); empty when idle
+        self.last_error = ""        # last error shown (tests read it)
+        self.last_message = ""
+        self._busy_timer = None
 
     # --- layout -----------------------------------------------------------
     def compose(self):
-        yield Static("", id="status", markup=False)
-        yield Static("", id="problem", markup=False)
+        yield TextView("nodeterm: loading...", id="status")
+        yield TextView("", id="problem")
+        yield TextView("", id="warnings")
         with TabbedContent(id="panes", initial="steps"):
             with TabPane("1 Circuit", id="circuit"):
                 yield CircuitPane(id="circuit-pane")
@@ -89,36 +89,77 @@ class Workbench(App):
                 yield ClaimsPane(id="claims-pane")
             with TabPane("7 Analysis", id="analysis"):
                 yield AnalysisPane(id="analysis-pane")
+        yield TextView("", id="message")
         yield Footer()
 
     def on_mount(self) -> None:
         threads.install()
-        # Everything alive now (modules, SymPy's and Textual's own objects, these widgets) lives as long
-        # as the app: keep it out of the collector's full passes, which otherwise pause the loop ~0.1 s.
+        # Everything alive now lives as long as the app: keep it out of the collector's full passes,
+        # which otherwise pause the loop ~0.1 s.
         gc.freeze()
-        self.query_one("#problem").display = False
-        self.set_interval(0.5, self._tick)
+        for line in ("#problem", "#warnings"):
+            self.query_one(line).display = False
         if self.poll:
             self.set_interval(POLL_SECONDS, self.poll_file)
         self.open_path(self.start_path)
         self.query_one("#equation-list").focus()
 
-    # --- errors -------------------------------------------------------------
+    # --- compatibility views of the current state (tests and exports read them) -------------------
+    @property
+    def entry(self) -> Entry | None:
+        return self.session.entry
+
+    @property
+    def system(self):
+        return self.session.system
+
+    @property
+    def solution(self):
+        entry = self.entry
+        return entry.study.solution if entry is not None and entry.has("solution") else None
+
+    @property
+    def verdicts(self) -> list:
+        entry = self.entry
+        if entry is None:
+            return []
+        return list(entry.texts.get(("verdicts", tuple(self.session.claims.items())), ()))
+
+    @property
+    def busy_since(self) -> float | None:
+        return min((since for _, since in self.busy.values()), default=None)
+
+    # --- messages -------------------------------------------------------------
+    def notify(self, message: str, *, title: str = "", severity: str = "information", timeout=None,
+               markup: bool = True) -> None:
+        """Messages go to the line above the footer (a toast would cover the panes); they stay until
+        the next one."""
+        text = f"{title}: {message}" if title else str(message)
+        text = " ".join(text.split())
+        if severity == "error":
+            text = "! " + text
+            self.last_error = text
+        self.last_message = text
+        try:
+            self.query_one("#message", TextView).set(text)
+        except NoMatches:
+            pass
+
     def report_error(self, exc: BaseException, doing: str = "") -> None:
         """Show a failure as a message and log it; the state on screen is untouched."""
         msg = describe(exc)
-        self.last_error = msg
         if isinstance(exc, InputError):
             logger().info("%s: %s", doing, msg)
         else:
             logger().error("%s failed", doing, exc_info=exc)
-        self.notify(msg, title=f"could not {doing}" if doing else "error", severity="error", timeout=10,
-                    markup=False)  # engine messages name tables such as [find]
+        self.notify(msg, title=f"could not {doing}" if doing else "error", severity="error")
+        self.last_error = msg
 
-    def _set_problem(self, text: str) -> None:
-        problem = self.query_one("#problem", Static)
-        problem.update(f"! {text}" if text else "")
-        problem.display = bool(text)
+    def _set_line(self, selector: str, text: str) -> None:
+        line = self.query_one(selector, TextView)
+        line.set(text)
+        if line.display != bool(text):
+            line.display = bool(text)
 
     # --- loading ------------------------------------------------------------
     @guarded
@@ -130,17 +171,16 @@ class Workbench(App):
         try:
             self.session.open(path)
         except InputError as err:
-            if self.session.loaded:
-                self._set_problem(f"{err}  (still showing {os.path.basename(self.session.path)})")
-            else:
-                self._set_problem(str(err))
+            still = f"  (still showing {os.path.basename(self.session.path)})" if self.session.loaded else ""
+            self._set_line("#problem", f"! {err}{still}")
             raise
-        self._set_problem("")
-        self.query_one(StepsPane).index = 0
-        self.system = self.session.system
+        self._set_line("#problem", "")
+        self.workers.cancel_group(self, "records")
+        self.show_entry(step=0)
 
     def try_open(self, path: str) -> str | None:
         """Open ``path``; return the error text instead of raising (for the open dialog)."""
+        from nodeterm.engine import load_circuit
         try:
             load_circuit(path)
         except InputError as err:
@@ -154,55 +194,175 @@ class Workbench(App):
         try:
             dropped = self.session.reload()
         except InputError as err:
-            self._set_problem(f"file no longer loads, showing the last good version: {err}")
+            self._set_line("#problem", f"! file no longer loads, showing the last good version: {err}")
             raise
-        self._set_problem("")
-        for note in dropped:
-            self.notify(note, severity="warning", timeout=8, markup=False)
-        self.system = self.session.system
-        self.notify(f"reloaded {os.path.basename(self.session.path)}", timeout=3)
+        self._set_line("#problem", "")
+        self.workers.cancel_group(self, "records")
+        self.busy.pop("records", None)
+        self.show_entry()
+        note = f"reloaded {os.path.basename(self.session.path)}"
+        self.notify("; ".join([note] + dropped), severity="warning" if dropped else "information")
 
     @guarded
     def poll_file(self) -> None:
-        """Reload when the file changed on disk (called every second)."""
+        """Reload when the file changed on disk (called every second; draws nothing otherwise)."""
         if self.session.loaded and self.session.changed_on_disk():
             self.reload()
 
-    # --- showing ------------------------------------------------------------
-    @guarded
-    def watch_system(self, system) -> None:
-        if system is None:
+    # --- rendering ------------------------------------------------------------
+    def show_entry(self, step: int | None = None, last: bool = False) -> None:
+        """Put the current entry on every pane (each redraws only what changed), then ask for the
+        records it still lacks."""
+        entry = self.entry
+        if entry is None:
             return
-        self.solution = self.matrix_form = None
-        self.query_one(CircuitPane).show(system)
-        self.query_one(StepsPane).show(system)
-        self.query_one(ValuesPane).show(system, self.session.describe_ops())
-        self.query_one(MatrixPane).show_note("computing the matrix...")
-        self.query_one(ResultsPane).show_note("solving...")
-        self.start_solve()
+        system = entry.system
+        steps = self.query_one(StepsPane)
+        if step is not None:
+            steps.index = step
+        steps.show(system, last=last)
+        self.query_one(CircuitPane).show_text("\n".join(
+            panes.circuit_lines(system.circuit, system.values, self._warnings(entry))))
+        self.query_one(ValuesPane).show(system.circuit.parameters, system.values,
+                                        panes.history_text(self.session.done(), self.session.undone()))
+        self._show_warnings(entry)
+        self._show_records(entry)
+        self.request_records()
+        self._update_status()
 
-    @guarded
-    def watch_two_d(self, two_d: bool) -> None:
-        self.query_one(StepsPane).set_two_d(two_d)
-        if self.solution is not None:
-            self._print_worker(self.system, self.solution, two_d, self.query_one(ResultsPane).text_width)
+    def _warnings(self, entry: Entry) -> tuple:
+        if entry.has("warnings"):
+            return tuple(entry.study.warnings)
+        return tuple(entry.system.warnings)
 
-    @work(thread=True, exclusive=True, group="print", description="printing the results")
-    def _print_worker(self, system, solution, two_d: bool, width: int) -> None:
-        """Print the results in the other form (a large result takes a while to print)."""
+    def _show_warnings(self, entry: Entry) -> None:
+        warnings = self._warnings(entry)
+        if not warnings:
+            self._set_line("#warnings", "")
+            return
+        first = getattr(warnings[0], "message", str(warnings[0]))
+        more = f" (+{len(warnings) - 1} more, key 1)" if len(warnings) > 1 else " (key 1: circuit)"
+        self._set_line("#warnings", f"! {first}{more}")
+
+    def _text_keys(self) -> dict[str, tuple]:
+        width = self.query_one(ResultsPane).text_width
+        return {"matrix": ("matrix", self.query_one(MatrixPane).text_width),
+                "solution": ("results", self.two_d, width),
+                "verdicts": ("claims", tuple(self.session.claims.items())),
+                "analysis": ("analysis",)}
+
+    def _show_records(self, entry: Entry) -> None:
+        """The matrix, results, claims and analyses of ``entry``: text when there, else why not."""
+        keys = self._text_keys()
+        busy = "records" in self.busy
+        notes = {"matrix": "computing the matrix...", "solution": "solving... (c cancels)",
+                 "verdicts": "checking the claims...", "analysis": "analysing... (c cancels)"}
+        for name, show in (("matrix", self.query_one(MatrixPane).show_text),
+                           ("solution", self.query_one(ResultsPane).show_note),
+                           ("verdicts", self.query_one(ClaimsPane).show_verdicts),
+                           ("analysis", self.query_one(AnalysisPane).show_text)):
+            text = entry.texts.get(keys[name])
+            if text is not None:
+                show(text)
+                continue
+            error = entry.texts.get(("error", name)) or entry.texts.get(("error", "solution"))
+            if error:
+                show(f"{NO[name]}: {error} (s tries again)")
+            elif entry.texts.get(("cancelled",)):
+                show("cancelled (s solves again)")
+            elif name == "verdicts" and not entry.system.circuit.hand and not self.session.claims:
+                show("(no claims yet: type one above; a [hand] table in the file is checked too)")
+            elif name == "analysis" and self.query_one(TabbedContent).active != "analysis":
+                show("(open this pane or press a to run the analyses)")
+            else:
+                show(notes[name] if busy or name != "analysis" else "(a runs the analyses)")
+        if entry.has("solution") and self.query_one(TabbedContent).active == "analysis":
+            self.query_one(AnalysisPane).show_system(entry.system, entry.study.solution)
+
+    def _wanted(self, entry: Entry) -> list[str]:
+        keys = self._text_keys()
+        if entry.texts.get(("cancelled",)) or entry.texts.get(("error", "solution")):
+            return []
+        wanted = [name for name in ("matrix", "solution") if keys[name] not in entry.texts
+                  and ("error", name) not in entry.texts]
+        if keys["verdicts"] not in entry.texts and (entry.system.circuit.hand or self.session.claims) \
+                and ("error", "verdicts") not in entry.texts:
+            wanted.append("verdicts")
+        if self.query_one(TabbedContent).active == "analysis" and keys["analysis"] not in entry.texts \
+                and ("error", "analysis") not in entry.texts:
+            wanted.append("analysis")
+        return wanted
+
+    def request_records(self) -> None:
+        """Ask the solver process for what the current entry lacks (one request at a time)."""
+        entry = self.entry
+        if entry is None:
+            return
+        wanted = self._wanted(entry)
+        if not wanted:
+            return
+        what = "solving" if "solution" in wanted else ("checking claims" if "verdicts" in wanted else "analysing")
+        self._set_busy("records", what)
+        self._records_worker(entry, tuple(wanted), {"width": self.query_one(ResultsPane).text_width,
+                                                    "two_d": self.two_d, "claims": dict(self.session.claims)},
+                             self.query_one(MatrixPane).text_width)
+
+    @work(thread=True, exclusive=True, group="records", description="computing records")
+    def _records_worker(self, entry: Entry, wanted: tuple, options: dict, matrix_width: int) -> None:
+        """Waits for the child process; each record is handed to the event loop as it comes."""
         worker = get_current_worker()
-        text = _printed(system, solution, two_d, width)
+
+        def received(part) -> None:
+            if not worker.is_cancelled:
+                self.call_from_thread(self._received, entry, part)
+        try:
+            solver_process.records_in_process(entry.study, wanted, dict(options, matrix_width=matrix_width),
+                                              lambda: worker.is_cancelled, received)
+            error = None
+        except solver_process.Cancelled:
+            return
+        except Exception as exc:  # noqa: BLE001 - reported on screen by _finished
+            error = exc
         if not worker.is_cancelled:
-            self.call_from_thread(self._printed, system, two_d, text)
+            self.call_from_thread(self._finished, entry, error)
 
     @guarded
-    def _printed(self, system, two_d: bool, text: str) -> None:
-        if system is self.system and two_d == self.two_d and self.solution is not None:
-            self.query_one(ResultsPane).show_text(text)
+    def _received(self, entry: Entry, part) -> None:
+        """One record for ``entry`` (current or not: it stays with its study for undo and redo)."""
+        if part.error is not None:
+            entry.texts[("error", part.name)] = describe(part.error)
+            if entry is self.entry:
+                self.report_error(part.error, "compute the " + {"solution": "results"}.get(part.name, part.name))
+        else:
+            entry.study.adopt(part.carrier)
+            entry.texts.update(part.texts)
+        if entry is self.entry:
+            self._show_records(entry)
+            if part.name == "solution" and entry.has("warnings"):
+                self._show_warnings(entry)
 
-    @on(StepsPane.StepChanged)
     @guarded
-    def _step_changed(self) -> None:
+    def _finished(self, entry: Entry, error) -> None:
+        self._set_busy("records", None)
+        if error is not None and entry is self.entry:
+            entry.texts[("error", "solution")] = describe(error)
+            self._show_records(entry)
+            self.report_error(error, "solve")
+        if entry is self.entry:
+            self.request_records()  # what was asked for meanwhile (a typed claim, the analysis pane)
+        self._update_status()
+
+    # --- the status line and the busy time ---------------------------------------------------
+    def _set_busy(self, group: str, what: str | None) -> None:
+        if what is None:
+            self.busy.pop(group, None)
+        else:
+            self.busy[group] = (what, time.monotonic())
+        if self.busy and self._busy_timer is None:
+            self._busy_timer = self.set_interval(1.0, self._update_status)
+        elif not self.busy and self._busy_timer is not None:
+            self._busy_timer.stop()
+            self._busy_timer = None
         self._update_status()
 
     def _update_status(self) -> None:
@@ -213,189 +373,32 @@ class Workbench(App):
 
     def _write_status(self) -> None:
         pane = self.query_one(TabbedContent).active
-        parts = [f"[{pane.capitalize()}]"] if pane else []
-        if self.session.path:
-            parts.append(os.path.basename(self.session.path))
         steps = self.query_one(StepsPane)
-        if steps.steps:
-            parts.append(f"step {steps.index + 1}/{len(steps.steps)}")
-        if self.system is not None:
-            n = len(self.system.values)
-            parts.append(f"{n} value{'s' if n != 1 else ''} substituted" if n else "symbolic")
-        parts.append("2-D form" if self.two_d else "one-line form")
-        if self.busy_since is not None:
-            parts.append(f"BUSY {self.busy_what} {time.monotonic() - self.busy_since:.0f}s (c cancels)")
-        self.query_one("#status", Static).update(" | ".join(parts))
+        busy = None
+        if self.busy:
+            what, since = min(self.busy.values(), key=lambda b: b[1])
+            busy = (what, int(time.monotonic() - since))
+        system = self.system
+        text = panes.status_line(pane, os.path.basename(self.session.path) if self.session.path else None,
+                                 (steps.index + 1, len(steps.steps)) if steps.steps else None,
+                                 len(system.values) if system is not None else None, self.two_d, busy,
+                                 self.size.width or 80)
+        if isinstance(self.focused, Input):
+            text = "TYPING, Esc leaves | " + text
+        self.query_one("#status", TextView).set(text)
 
+    @on(StepsPane.StepChanged)
     @guarded
-    def _tick(self) -> None:
+    def _step_changed(self) -> None:
         self._update_status()
 
-    # --- solving in a worker ------------------------------------------------
-    def start_solve(self) -> None:
-        if self.system is None:
-            return
-        self.workers.cancel_group(self, "analysis")
-        self.analysed = None
-        self.busy_since, self.busy_what = time.monotonic(), "solving"
-        self._update_status()
-        self._solve_worker(self.system, self.two_d, self.query_one(ResultsPane).text_width)
-
-    @work(thread=True, exclusive=True, group="solve", description="solving")
-    def _solve_worker(self, system, two_d: bool, width: int) -> None:
-        """Matrix, solution and their printed text, in a child process (this thread only waits)."""
-        worker = get_current_worker()
-
-        def matrix_ready(part) -> None:
-            if not worker.is_cancelled:
-                self.call_from_thread(self._solved, system, part.matrix, part.matrix_text, None, "", None, False)
-        try:
-            done = solver_process.solve_in_process(system, two_d, width, lambda: worker.is_cancelled,
-                                                   matrix_ready)
-            matrix, solution, printed, error = done.matrix, done.solution, done.printed, None
-        except solver_process.Cancelled:
-            return
-        except Exception as exc:  # noqa: BLE001 - reported on screen by _solved
-            matrix, solution, printed, error = self.matrix_form, None, "", exc
-        if not worker.is_cancelled:
-            self.call_from_thread(self._solved, system, matrix, "", solution, printed, error, True)
-
-    @guarded
-    def _solved(self, system, matrix, matrix_shown: str, solution, printed: str, error, done: bool) -> None:
-        if system is not self.system:
-            return  # a result for an older system: drop it
-        if matrix is not None and self.matrix_form is None:
-            self.matrix_form = matrix
-            if matrix_shown:
-                self.query_one(MatrixPane).show_text(matrix_shown)
-        if not done:
-            return
-        self.busy_since = None
-        if error is not None:
-            note = describe(error)
-            if matrix is None:
-                self.query_one(MatrixPane).show_note(f"no matrix: {note}")
-            self.query_one(ResultsPane).show_note(f"no results: {note}")
-            self.report_error(error, "solve")
-        else:
-            self.solution = solution
-            self.query_one(ResultsPane).show_text(printed)
-            self.start_audit()
-            if self.query_one(TabbedContent).active == "analysis":
-                self.start_analysis()
+    def on_descendant_focus(self) -> None:
         self._update_status()
 
-    # --- analyses in a worker (on request) --------------------------------------
-    def start_analysis(self) -> None:
-        pane = self.query_one(AnalysisPane)
-        if self.system is None or self.analysed is self.system:
-            return
-        if self.solution is None:
-            pane.show_lines(["waiting for the solve to finish..."])
-            return
-        self.analysed = self.system
-        pane.show_system(self.system, self.solution)
-        pane.show_lines(["analysing... (the pane stays usable; c cancels)"])
-        self.busy_since, self.busy_what = time.monotonic(), "analysing"
-        self._analysis_worker(self.system, self.solution)
-
-    @work(thread=True, exclusive=True, group="analysis", description="analysing")
-    def _analysis_worker(self, system, solution) -> None:
-        worker = get_current_worker()
-        try:
-            lines = solver_process.call_in_child(analysis_lines, system, solution,
-                                                 cancelled=lambda: worker.is_cancelled)
-        except solver_process.Cancelled:
-            return
-        except Exception as exc:  # noqa: BLE001
-            lines = [f"! analyses failed: {describe(exc)}"]
-        if not worker.is_cancelled:
-            self.call_from_thread(self._analysed, system, lines)
-
-    @guarded
-    def _analysed(self, system, lines) -> None:
-        if system is not self.system:
-            return
-        self.busy_since = None
-        self.query_one(AnalysisPane).show_lines(lines)
+    def on_descendant_blur(self) -> None:
         self._update_status()
 
-    @guarded
-    def action_analyse(self) -> None:
-        self.show_pane("analysis")
-        self.start_analysis()
-    # --- audit of claims in a worker -----------------------------------------
-    def start_audit(self) -> None:
-        if self.system is None or self.solution is None:
-            return
-        if not self.system.circuit.hand and not self.typed_claims:
-            self.verdicts = []
-            self.query_one(ClaimsPane).show_verdicts([])
-            return
-        self.query_one(ClaimsPane).show_verdicts(["checking the claims..."])
-        self._audit_worker(self.system, self.solution, dict(self.typed_claims))
-
-    @work(thread=True, exclusive=True, group="audit", description="checking the claims")
-    def _audit_worker(self, system, solution, typed: dict) -> None:
-        from nodeterm.engine.audit.verdicts import audit_claims
-        worker = get_current_worker()
-        try:
-            verdicts = audit_claims(system, None, solution=solution)
-            if typed:
-                verdicts += audit_claims(system, typed, solution=solution)
-            error = None
-        except Exception as exc:  # noqa: BLE001 - reported on screen by _audited
-            verdicts, error = [], exc
-        if not worker.is_cancelled:
-            self.call_from_thread(self._audited, system, verdicts, error)
-
-    @guarded
-    def _audited(self, system, verdicts, error) -> None:
-        if system is not self.system:
-            return
-        from nodeterm.engine.audit.verdicts import summary
-        from nodeterm.present.text import verdict_lines
-        pane = self.query_one(ClaimsPane)
-        if error is not None:
-            pane.show_verdicts([f"claims not checked: {describe(error)}"])
-            self.report_error(error, "check the claims")
-            return
-        self.verdicts = verdicts
-        lines = [summary(verdicts), ""] + verdict_lines(verdicts)
-        pane.show_verdicts(lines)
-
-    @on(ClaimsPane.Check)
-    @guarded
-    def _check_claim(self, event: ClaimsPane.Check) -> None:
-        self.check_claim(event.text)
-
-    def check_claim(self, text: str) -> bool:
-        """Add a typed claim: ``NAME = value`` for a [find] name is a claimed result, else an equation."""
-        pane = self.query_one(ClaimsPane)
-        if self.system is None:
-            return False
-        head, sep, tail = text.partition("=")
-        if sep and head.strip() in self.system.circuit.find and "=" not in tail:
-            name, claim = head.strip(), tail.strip()
-        else:
-            if not sep:
-                pane.show_error("! a claim needs '=': an equation, or NAME = value for a [find] name "
-                                f"({', '.join(self.system.circuit.find) or 'this circuit has none'})")
-                return False
-            name, claim = f"typed{len(self.typed_claims) + 1}", text
-        if self.solution is None:
-            pane.show_error("! the solve has not finished; wait for it (s solves again)")
-            return False
-        self.typed_claims[name] = claim
-        pane.accepted()
-        self.start_audit()
-        return True
-
-    # --- actions (each calls a public method; all guarded) ------------------
-    @guarded
-    def action_help(self) -> None:
-        self.push_screen(HelpScreen(help_text()))
-
+    # --- panes -------------------------------------------------------------------
     @guarded
     def action_pane(self, name: str) -> None:
         self.show_pane(name)
@@ -404,17 +407,20 @@ class Workbench(App):
     @guarded
     def _pane_changed(self) -> None:
         self._update_status()
-        if self.query_one(TabbedContent).active == "analysis":
-            self.start_analysis()
+        if self.query_one(TabbedContent).active == "analysis" and self.entry is not None:
+            self._show_records(self.entry)
+            if "records" not in self.busy:
+                self.request_records()
 
     def show_pane(self, name: str) -> None:
         self.query_one(TabbedContent).active = name
-        target = {"steps": "#equation-list", "values": "#param-list", "claims": "#claim-input"}.get(name)
-        if target:
-            self.query_one(target).focus()
-        else:
-            self.query_one(f"#{name}-pane").focus()
+        self.query_one(FOCUS.get(name, f"#{name}-pane")).focus()
 
+    @guarded
+    def action_analyse(self) -> None:
+        self.show_pane("analysis")
+
+    # --- steps -------------------------------------------------------------------
     @guarded
     def action_next_step(self) -> None:
         self.step(+1)
@@ -429,30 +435,48 @@ class Workbench(App):
             self.show_pane("steps")
         moved = self.query_one(StepsPane).go(delta)
         if not moved:
-            self.notify("already at the " + ("last" if delta > 0 else "first") + " step", timeout=2)
+            self.notify("already at the " + ("last" if delta > 0 else "first") + " step")
         return moved
 
+    # --- values ------------------------------------------------------------------
     @guarded
-    def action_type_value(self) -> None:
-        self.show_pane("values")
-        self.query_one(ValuesPane).focus_value()
-
-    @on(ValuesPane.Apply)
-    @guarded
-    def _apply_value(self, event: ValuesPane.Apply) -> None:
-        self.substitute(event.name, event.value)
-
-    def substitute(self, name: str, value: str) -> bool:
-        """Substitute one value; a bad value is explained under the value box."""
+    def action_type_value(self, name: str | None = None) -> None:
+        """Open the value dialog on ``name`` (the parameter highlighted in the values pane by default)."""
+        system = self.system
+        if system is None:
+            return
+        params = list(system.circuit.parameters)
+        if not params:
+            self.notify("this circuit has no parameters to give values to")
+            return
         pane = self.query_one(ValuesPane)
+        rows = panes.value_rows(system.circuit.parameters, system.values)
+        self.push_screen(ValueScreen(params, rows, name or pane.selected or params[0], self._apply_value))
+
+    @on(ValuesPane.Pick)
+    @guarded
+    def _pick(self, event: ValuesPane.Pick) -> None:
+        self.action_type_value(event.name)
+
+    def _apply_value(self, name: str, value: str) -> str | None:
+        """The value dialog's Enter: substitute, or return what is wrong with the value."""
+        try:
+            self.substitute(name, value, raise_errors=True)
+        except InputError as err:
+            return f"! {err.message}" + (f"; {err.hint}" if err.hint else "")
+        self.query_one(ValuesPane).select(name)
+        return None
+
+    def substitute(self, name: str, value: str, raise_errors: bool = False) -> bool:
+        """Substitute one value (a number or an expression in the other parameters)."""
         try:
             self.session.substitute(name, value)
         except InputError as err:
-            pane.show_error(f"! {err.message}" + (f"; {err.hint}" if err.hint else ""))
+            if raise_errors:
+                raise
+            self.report_error(err, "substitute")
             return False
-        pane.applied()
-        self.system = self.session.system
-        self.notify(f"substituted {name} = {value}", timeout=3)
+        self._moved(f"substituted {name} = {value}", last=True)
         return True
 
     @guarded
@@ -460,11 +484,10 @@ class Workbench(App):
         self.substitute_known()
 
     def substitute_known(self) -> bool:
-        if not self.session.substitute_known():
-            self.notify("every value the file gives is already substituted", timeout=3)
+        if self.session.substitute_known() is None:
+            self.notify("every value the file gives is already substituted")
             return False
-        self.system = self.session.system
-        self.notify("substituted every value the file gives", timeout=3)
+        self._moved("substituted every value the file gives", last=True)
         return True
 
     @guarded
@@ -472,22 +495,76 @@ class Workbench(App):
         self.undo()
 
     def undo(self) -> bool:
-        if not self.session.undo():
-            self.notify("nothing to undo", timeout=2)
+        label = self.entry.label if self.entry is not None else ""
+        if self.session.undo() is None:
+            self.notify("nothing to undo")
             return False
-        self.system = self.session.system
-        self.notify("took back the last substitution", timeout=3)
+        self._moved(f"took back {label} (Ctrl+R redoes)")
         return True
 
     @guarded
+    def action_redo(self) -> None:
+        self.redo()
+
+    def redo(self) -> bool:
+        if self.session.redo() is None:
+            self.notify("nothing to redo")
+            return False
+        self._moved(f"redid {self.entry.label}", last=True)
+        return True
+
+    def _moved(self, message: str, last: bool = False) -> None:
+        """The session moved to another entry: show it (its records, if it had them, at once)."""
+        self.workers.cancel_group(self, "records")
+        self.busy.pop("records", None)
+        self.show_entry(last=last)
+        self.notify(message)
+
+    # --- claims ------------------------------------------------------------------
+    @on(ClaimsPane.Check)
+    @guarded
+    def _check_claim(self, event: ClaimsPane.Check) -> None:
+        self.check_claim(event.text)
+
+    def check_claim(self, text: str) -> bool:
+        """Add a typed claim: ``NAME = value`` for a [find] name is a claimed result, else an equation."""
+        pane = self.query_one(ClaimsPane)
+        if self.entry is None:
+            return False
+        try:
+            self.session.add_claim(text)
+        except InputError as err:
+            pane.show_error(f"! {err.message}")
+            return False
+        pane.accepted()
+        self._show_records(self.entry)
+        if "records" not in self.busy:
+            self.request_records()
+        return True
+
+    # --- solving -----------------------------------------------------------------
+    @guarded
     def action_toggle_form(self) -> None:
         self.two_d = not self.two_d
+        self.query_one(StepsPane).set_two_d(self.two_d)
+        if self.entry is not None:
+            self._show_records(self.entry)
+            if "records" not in self.busy:
+                self.request_records()
         self._update_status()
 
     @guarded
     def action_solve(self) -> None:
-        self.solution = self.matrix_form = None
-        self.start_solve()
+        """Solve again: forget a cancel or an error of this entry and ask for its records."""
+        entry = self.entry
+        if entry is None:
+            return
+        for key in [k for k in entry.texts if k[0] in ("error", "cancelled")]:
+            del entry.texts[key]
+        self.workers.cancel_group(self, "records")
+        self.busy.pop("records", None)
+        self._show_records(entry)
+        self.request_records()
 
     @guarded
     def action_cancel(self) -> None:
@@ -495,45 +572,40 @@ class Workbench(App):
 
     def cancel_solve(self) -> bool:
         if self.query_one(AnalysisPane).cancel_running():
-            self.notify("Monte Carlo cancelled", timeout=3)
+            self.notify("Monte Carlo cancelled")
             return True
-        if self.busy_since is None:
+        if "records" not in self.busy:
             return False
-        self.workers.cancel_group(self, "solve")
-        self.workers.cancel_group(self, "analysis")
-        if self.busy_what == "analysing":
-            self.analysed = None
-            self.query_one(AnalysisPane).show_lines(["analyses cancelled (a runs them again)"])
-            self.busy_since = None
-            self.notify("analyses cancelled", timeout=3)
-            self._update_status()
-            return True
-        self.busy_since = None
-        if self.matrix_form is None:
-            self.query_one(MatrixPane).show_note("cancelled (s solves again)")
-        self.query_one(ResultsPane).show_note("solve cancelled (s solves again)")
-        self.notify("solve cancelled", timeout=3)
-        self._update_status()
+        what = self.busy["records"][0]
+        self.workers.cancel_group(self, "records")
+        self._set_busy("records", None)
+        entry = self.entry
+        if entry is not None:
+            entry.texts[("cancelled",)] = True
+            self._show_records(entry)
+        self.notify(f"{what} cancelled (s solves again)")
         return True
 
     @guarded
     def action_leave(self) -> None:
+        """Esc: leave a text box (the keys work again), else cancel what runs."""
         if isinstance(self.focused, Input):
             if self.query_one(TabbedContent).active == "claims":
                 self.query_one("#claims-scroll").focus()
             else:
-                self.query_one("#param-list").focus()
-        elif self.busy_since is not None or self.query_one(AnalysisPane).running:
+                self.show_pane(self.query_one(TabbedContent).active)
+        elif self.busy or self.query_one(AnalysisPane).running:
             self.cancel_solve()
 
+    # --- analysis pane -------------------------------------------------------------
     @guarded
     def action_response_next(self) -> None:
         self.show_pane("analysis")
         pane = self.query_one(AnalysisPane)
         if pane.next_quantity() is None:
-            self.notify("no frequency response to show (yet): the analysis pane says why", timeout=4)
+            self.notify("no frequency response to show (yet): the analysis pane says why")
         elif pane.quantity_count() == 1:
-            self.notify("only one quantity of the find table depends on s", timeout=3)
+            self.notify("only one quantity of the find table depends on s")
 
     @guarded
     def action_write_response(self) -> None:
@@ -546,6 +618,7 @@ class Workbench(App):
         if self.system is not None:
             self.query_one(AnalysisPane).run_monte_carlo(self.system)
 
+    # --- files ---------------------------------------------------------------------
     @guarded
     def action_open_file(self) -> None:
         start = os.path.dirname(self.session.path or "") + os.sep if self.session.path else ""
@@ -557,23 +630,23 @@ class Workbench(App):
 
     @guarded
     def action_export(self) -> None:
+        from nodeterm.present.export import EXTENSIONS, FORMATS
         stem = os.path.splitext(os.path.basename(self.session.path or "circuit"))[0]
         self.push_screen(ExportScreen(FORMATS, EXTENSIONS, stem, os.getcwd()), callback=self._export_to)
 
     def export_text(self, fmt: str = "text") -> str:
         """The equation set of what is on screen in format ``fmt`` (with results when solved)."""
-        system = self.system
-        if self.solution is not None:
-            from nodeterm.engine.study import Records
-            records = Records(system.circuit, self.session.choice if hasattr(self.session, "choice") else None,
-                              system=system, matrix=self.matrix_form or system.matrix(), solution=self.solution,
-                              warnings=tuple(system.warnings), verdicts=tuple(self.verdicts or ()))
-            return render(records, fmt)
+        from nodeterm.present.export import render
+        from nodeterm.present.text import matrix_lines, steps_lines
+        entry = self.entry
+        system = entry.system
+        if entry.has("solution"):
+            return render(system, entry.study.solution, self.verdicts, fmt)
         if fmt not in ("text", "ascii"):
             raise InputError(f"the {fmt} export needs the results, and the solve has not finished",
                              hint="wait for it (or press s to solve again), then export")
-        lines = steps_lines(system) + ["Matrix form A x = b"]
-        lines += ["  " + ln for ln in matrix_lines(self.matrix_form or system.matrix())]
+        matrix = entry.study.matrix if entry.has("matrix") else system.matrix()
+        lines = steps_lines(system) + ["Matrix form A x = b"] + ["  " + ln for ln in matrix_lines(matrix)]
         lines += ["", "(results not included: the solve had not finished)"]
         return "\n".join(lines) + "\n"
 
@@ -590,24 +663,24 @@ class Workbench(App):
 
     def export(self, path: str, fmt: str = "text", force: bool = False) -> bool:
         """Write the equation set to ``path`` atomically; a failure is reported and leaves no file."""
+        from nodeterm.present.export import write_atomic
         try:
             write_atomic(path, self.export_text(fmt), force=force)
         except InputError as err:
             self.report_error(err, "export")
             return False
-        self.notify(f"wrote {path} ({fmt})", timeout=5)
+        self.notify(f"wrote {path} ({fmt})")
         return True
+
+    # --- help, palette, quitting ------------------------------------------------------
+    @guarded
+    def action_help(self) -> None:
+        self.push_screen(HelpScreen(help_text()))
 
     def pending_input(self) -> list[str]:
         """What the user typed and has not applied (quitting would lose it)."""
-        pending = []
-        value = self.query_one(ValuesPane).pending
-        if value:
-            pending.append(f"the value {value!r} typed for {self.query_one(ValuesPane).selected}")
         claim = self.query_one(ClaimsPane).pending
-        if claim:
-            pending.append(f"the claim {claim!r} not yet checked")
-        return pending
+        return [f"the claim {claim!r} not yet checked"] if claim else []
 
     @guarded
     def action_quit(self) -> None:
@@ -623,22 +696,13 @@ class Workbench(App):
         self.push_screen(ConfirmScreen(question, "Quit", "Stay"),
                          callback=lambda yes: self.exit(0) if yes else None)
 
-    # --- command palette: every action by name --------------------------------
     def get_system_commands(self, screen):
+        """Every action by name (titles escaped: they name tables such as [find])."""
         for key in KEYS:
             if key.action in ("leave",):
                 continue
-            yield SystemCommand(key.title, f"key: {key.display}", partial(self.run_action, key.action))
+            yield SystemCommand(escape(key.title), f"key: {key.display}", partial(self.run_action, key.action))
         yield SystemCommand("Theme", "Change the colour theme", self.action_change_theme)
-
-
-def _printed(system, solution, two_d: bool, width: int) -> str:
-    """The results pane's text; a failure to print is shown in the pane, the solution is kept."""
-    try:
-        return results_text(system, solution, two_d, width)
-    except Exception as exc:  # noqa: BLE001 - the solution is still good for the other panes
-        logger().error("printing the results failed", exc_info=exc)
-        return f"! could not print the results: {describe(exc)}"
 
 
 def run(path: str | None) -> int:

@@ -1,23 +1,24 @@
 """The claims pane: type a claim of your own derivation and read the audit's verdict.
 
-A claim is an equation (``(V_inv - V_in)/Rin + (V_inv - V_out)/Rf = 0``) or a
-result under a ``[find]`` name (``gain = -Rf/Rin``). The file's ``[hand]``
-claims are listed too. The pane only asks (:class:`ClaimsPane.Check`); the app
-runs the engine's audit and hands back the verdict lines.
+A claim is an equation (``(V_inv - V_in)/Rin + (V_inv - V_out)/Rf = 0``) or a result under a
+``[find]`` name (``gain = -Rf/Rin``). The file's ``[hand]`` claims are listed too. The pane only
+asks (:class:`ClaimsPane.Check`); the app has the claim checked and hands back the verdicts' text.
+The box keeps the keys after Enter, so claims can be typed one after another; Esc leaves it.
 """
 
 from __future__ import annotations
 
 from textual import on
-from textual.containers import Vertical, VerticalScroll
+from textual.containers import Vertical
 from textual.message import Message
-from textual.widgets import Input, Static
+from textual.widgets import Input
 
 from nodeterm.ui.safety import guarded
+from nodeterm.ui.views import PagedVerticalScroll, TextView
 
-HELP = ("Type a claim, Enter checks it against the node equations:\n"
+HELP = ("Type a claim, Enter checks it (the box stays ready for the next; Esc leaves it):\n"
         "  an equation, e.g.  (V_inv - V_in)/Rin + (V_inv - V_out)/Rf = 0\n"
-        "  or a result  NAME = value  for a [find] name, e.g.  gain = -Rf/Rin   (Esc leaves the box)")
+        "  or a result  NAME = value  for a [find] name, e.g.  gain = -Rf/Rin")
 
 
 class ClaimsPane(Vertical):
@@ -31,11 +32,13 @@ class ClaimsPane(Vertical):
             super().__init__()
 
     def compose(self):
-        yield Static(HELP, id="claims-help", markup=False)
-        yield Input(placeholder="a claim, Enter checks it", id="claim-input")
-        yield Static("", id="claim-error", markup=False)
-        with VerticalScroll(id="claims-scroll"):
-            yield Static("(no claims yet)", id="claims-text", markup=False)
+        yield TextView(HELP, id="claims-help")
+        field = Input(placeholder="a claim, Enter checks it", id="claim-input")
+        field.cursor_blink = False  # a blinking cursor writes to the terminal twice a second
+        yield field
+        yield TextView("", id="claim-error")
+        with PagedVerticalScroll(id="claims-scroll"):
+            yield TextView("(no claims yet)", id="claims-text")
 
     @property
     def pending(self) -> str:
@@ -53,13 +56,12 @@ class ClaimsPane(Vertical):
         self.query_one("#claim-input", Input).focus()
 
     def show_error(self, text: str) -> None:
-        self.query_one("#claim-error", Static).update(text)
+        self.query_one("#claim-error", TextView).set(text)
 
     def accepted(self) -> None:
-        """The claim is being checked: clear the box and give the keys back (6 returns to the box)."""
+        """The claim is being checked: clear the box and keep it ready for the next claim."""
         self.query_one("#claim-input", Input).value = ""
         self.show_error("")
-        self.query_one("#claims-scroll").focus()
 
-    def show_verdicts(self, lines: list[str]) -> None:
-        self.query_one("#claims-text", Static).update("\n".join(lines) if lines else "(no claims yet)")
+    def show_verdicts(self, text: str) -> None:
+        self.query_one("#claims-text", TextView).set(text or "(no claims yet)")

@@ -26,6 +26,69 @@ class HelpScreen(ModalScreen[None]):
         self.dismiss(None)
 
 
+class ValueScreen(ModalScreen[None]):
+    """Type a value for a parameter. The name beside the box is the one the value goes to; Up/Down
+    choose another parameter without leaving the box. Enter applies (a bad value is explained here
+    and the dialog stays); Esc closes.
+
+    ``apply(name, value)`` substitutes and returns an error message, or None when it worked.
+    """
+
+    BINDINGS = [Binding("escape", "cancel", "Cancel"),
+                Binding("up", "move(-1)", "previous parameter", show=False, priority=True),
+                Binding("down", "move(1)", "next parameter", show=False, priority=True)]
+    AUTO_FOCUS = "#value-input"
+
+    def __init__(self, names: list[str], rows: dict[str, str], name: str, apply) -> None:
+        super().__init__()
+        self.names, self.rows, self.apply = names, rows, apply
+        self.index = names.index(name) if name in names else 0
+
+    @property
+    def name_shown(self) -> str:
+        return self.names[self.index]
+
+    def compose(self):
+        with Vertical(classes="dialog"):
+            yield Static("Type a value (4.7k, 100nF, Gain*Rin). Up/Down: another parameter. "
+                         "Enter applies, Esc closes.", classes="dialog-question", markup=False)
+            with Horizontal(id="value-row"):
+                yield Label("", id="value-label", markup=False)
+                field = Input(placeholder="value", id="value-input")
+                field.cursor_blink = False
+                yield field
+            yield Static("", id="value-row-text", markup=False)
+            yield Static("", id="value-error", markup=False)
+
+    def on_mount(self) -> None:
+        self._show_name()
+
+    def _show_name(self) -> None:
+        self.query_one("#value-label", Label).update(f"{self.name_shown} =")
+        self.query_one("#value-row-text", Static).update(
+            f"parameter {self.index + 1} of {len(self.names)}: {self.rows.get(self.name_shown, '')}")
+        self.query_one("#value-error", Static).update("")
+
+    def action_move(self, delta: int) -> None:
+        self.index = (self.index + delta) % len(self.names)
+        self._show_name()
+
+    @on(Input.Submitted, "#value-input")
+    def _submitted(self, event: Input.Submitted) -> None:
+        value = event.value.strip()
+        if not value:
+            self.query_one("#value-error", Static).update(f"! type a value for {self.name_shown}, e.g. 10k")
+            return
+        problem = self.apply(self.name_shown, value)
+        if problem:
+            self.query_one("#value-error", Static).update(problem)
+            return
+        self.dismiss(None)
+
+    def action_cancel(self) -> None:
+        self.dismiss(None)
+
+
 class ConfirmScreen(ModalScreen[bool]):
     """A yes/no question: y or Enter on Yes says yes; n or Esc says no."""
 

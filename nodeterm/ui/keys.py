@@ -15,7 +15,7 @@ class Key:
     @property
     def display(self) -> str:
         names = {"question_mark": "?", "escape": "Esc", "f1": "F1", "ctrl+p": "Ctrl+P", "ctrl+q": "Ctrl+Q",
-                 "left": "Left", "right": "Right"}
+                 "left": "Left", "right": "Right", "ctrl+r": "Ctrl+R"}
         return "/".join(names.get(k, k) for k in self.keys.split(","))
 
 
@@ -35,7 +35,8 @@ KEYS: tuple[Key, ...] = (
     Key("b", "previous_step", "Back one step of the procedure", "back"),
     Key("v", "type_value", "Type a value for a parameter", "value"),
     Key("k", "substitute_known", "Substitute every value the file gives", "known"),
-    Key("u", "undo", "Undo the last substitution", "undo"),
+    Key("u", "undo", "Undo the last substitution (back to the study before it)", "undo"),
+    Key("ctrl+r", "redo", "Redo the substitution undone last"),
     Key("f", "toggle_form", "Equation form: one line or 2-D"),
     Key("s", "solve", "Solve again"),
     Key("c", "cancel", "Cancel a running solve or Monte Carlo"),
@@ -47,32 +48,32 @@ KEYS: tuple[Key, ...] = (
 )
 
 PANE_HELP = """\
-Panes (keys 1-7; Tab/Shift+Tab moves between the widgets of a pane):
-  1 Circuit  parts with nodes and values, nodes (reference, op-amp outputs), parameters
-  2 Steps    the procedure step by step: n next, b back. Up/down picks an equation:
-             its parts get * in the parts list. Tab (or Left) to the parts list:
-             the picked part's terms get * in the equations; Tab/Right goes back.
-             The picked item carries ▶.
-  3 Values   pick a parameter, Tab to the box, type a value (e.g. 4.7k, 100nF,
-             Gain*Rin), Enter applies; a bad value is explained under the box.
-  4 Matrix   A x = b with one row per equation and one column per unknown
-  5 Results  node voltages, part currents, op-amp output currents, source currents,
-             [find] quantities; exact, with engineering values when numeric
-  6 Claims   type a claim (an equation, or NAME = value for a [find] name), Enter
-             checks it against the node equations; the file's [hand] claims too
-  7 Analysis magnitude (dB) and phase plots of a [find] quantity in s with its -3 dB
-             band (g next quantity, w CSV; k first if values are missing); m runs
-             Monte Carlo over the tolerances (progress bar, c cancels): min, max,
-             mean, std, worst case, histogram; then transfer functions in s (poles,
-             zeros, w0, Q), op-amp limits, real op-amp model, sensitivities, cautions
+Panes (keys 1-7 from every pane; Tab moves between the widgets of a pane):
+  1 Circuit  title, warnings, what meets at each node (part.pin), parts,
+             parameters, [find]
+  2 Steps    the procedure: n next, b back. Up/Down picks an equation: its
+             parts get * in the parts list. Tab or Left goes to the parts:
+             the picked part's terms get *; Tab or Right goes back.
+  3 Values   the parameters; Enter (or v anywhere) opens the value dialog:
+             the value goes to the parameter named beside the box, Up/Down
+             choose another. u undoes a substitution, Ctrl+R redoes it.
+  4 Matrix   A x = b, one row per equation, one column per unknown
+  5 Results  node voltages, part, op-amp and source currents, [find];
+             Left/Right scroll a page sideways
+  6 Claims   type a claim (an equation, or NAME = value for a [find] name);
+             Enter checks it and the box stays ready for the next one
+  7 Analysis frequency response (g next quantity, w CSV), Monte Carlo (m),
+             transfer functions, limits, real op-amp, sensitivities
 
-The file is reloaded when it changes on disk; if it no longer loads, its error is
-shown on the second line and the last good version stays on screen.
+Typing: a text box takes every key you type (so digits and letters never
+run commands there); Esc leaves the box and the keys work again.
+The file is reloaded when it changes on disk; if it no longer loads, its
+error shows on the second line and the last good version stays on screen.
 Ctrl+P opens the command palette: every action below is there by name.
 """
 
 
 def help_text(extra: tuple[Key, ...] = ()) -> str:
     rows = [f"  {k.display:<9} {k.title}" for k in KEYS + extra]
-    return ("nodeterm workbench: keys (Esc or q closes this help; up/down scrolls)\n\n" + "\n".join(rows)
+    return ("nodeterm workbench keys (Esc or q closes; Up/Down scroll)\n\n" + "\n".join(rows)
             + "\n  Ctrl+P    Command palette\n\n" + PANE_HELP)

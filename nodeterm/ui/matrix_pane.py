@@ -1,36 +1,23 @@
-"""The matrix pane: the reduced equations as A x = b with labelled rows and columns."""
+"""The matrix pane: A x = b with labelled rows and columns (text from :mod:`nodeterm.present.panes`)."""
 
 from __future__ import annotations
 
-from textual.containers import ScrollableContainer
-from textual.widgets import Static
-
-from nodeterm.present.text import matrix_lines
-
-INTRO = ("A x = b after the substitutions so far: one row per equation left to\n"
-         "solve, one column per unknown (arrow keys scroll when it is wide).")
+from nodeterm.ui.views import PagedScroll, TextView
 
 
-def matrix_text(matrix) -> str:
-    """The pane's whole text (workers call this: a big matrix takes a while to print)."""
-    return "\n".join([INTRO, ""] + matrix_lines(matrix))
-
-
-class MatrixPane(ScrollableContainer):
+class MatrixPane(PagedScroll):
     """Shows the labelled matrix, or why it is not there yet."""
 
     DEFAULT_CSS = """
-    MatrixPane > Static { width: auto; }
+    MatrixPane > TextView { width: auto; }
     """
 
     def compose(self):
-        yield Static("(no circuit loaded)", id="matrix-text", markup=False)
-
-    def show_matrix(self, matrix) -> None:
-        self.show_text(matrix_text(matrix))
+        yield TextView("(no circuit loaded)", id="matrix-text")
 
     def show_text(self, text: str) -> None:
-        self.query_one("#matrix-text", Static).update(text)
+        self.query_one("#matrix-text", TextView).set(text)
 
-    def show_note(self, text: str) -> None:
-        self.query_one("#matrix-text", Static).update(text)
+    @property
+    def text_width(self) -> int:
+        return max(40, (self.size.width or 80) - 2)

@@ -24,9 +24,10 @@ from typing import Callable
 POLL_SECONDS = 0.05
 IN_CHILD = True
 """False runs the work in the calling thread (tests that patch the engine in this process use it)."""
-PRELOAD = ["nodeterm.engine", "nodeterm.engine.solving.solve", "nodeterm.engine.solving.fastsolve", "nodeterm.engine.analysis.transfer",
-           "nodeterm.ui.matrix_pane", "nodeterm.ui.results_pane", "nodeterm.ui.analysis_pane",
-           "nodeterm.ui.response_pane", "nodeterm.ui.solver_process"]
+PRELOAD = ["nodeterm.engine", "nodeterm.engine.solving.solve", "nodeterm.engine.solving.fastsolve",
+           "nodeterm.engine.analysis.transfer", "nodeterm.present.panes", "nodeterm.present.text",
+           "nodeterm.engine.study", "nodeterm.ui.analyses", "nodeterm.ui.solver_process"]
+"""What the fork server imports once: the engine and the presenters, never a widget."""
 
 _context = None
 _context_lock = threading.Lock()
@@ -36,30 +37,77 @@ class Cancelled(Exception):
     """The caller no longer wants the answer (the child was terminated)."""
 
 
+RECORDS = ("matrix", "solution", "verdicts", "analysis")
+"""What the workbench asks the solver process for, in this order."""
+
+
 @dataclass
-class Solved:
-    """What the child sends back: the matrix and its text, then the solution and its text."""
+class Part:
+    """One record as it comes back: ``carrier`` is a study holding only that record (the workbench
+    adopts it into its own study), ``texts`` the pane text printed for it, ``error`` why it failed."""
 
-    matrix: object = None
-    matrix_text: str = ""
-    solution: object = None
-    printed: str = ""
+    name: str
+    carrier: object = None
+    texts: dict | None = None
+    error: BaseException | None = None
 
 
-def solve_and_print(system, two_d: bool, width: int, send: Callable[[str, object], None]) -> None:
-    """Matrix, then solution, each with the text the panes show; ``send`` passes them on."""
-    from nodeterm.ui.matrix_pane import matrix_text
-    from nodeterm.ui.results_pane import results_text
-    matrix = system.matrix()
-    send("matrix", Solved(matrix, matrix_text(matrix)))
-    from nodeterm.engine.solving.solve import solve_system
-    solution = solve_system(system)
+def compute_records(study, wanted, options: dict, send: Callable[[str, object], None]) -> None:
+    """Compute the records ``wanted`` of ``study`` (in :data:`RECORDS` order) and print their pane text.
+
+    ``options``: ``width`` and ``two_d`` for the printed results, ``matrix_width``, ``claims`` (name -> text) typed in
+    the workbench. Each record is sent as a :class:`Part` as soon as it is there; a record that
+    fails is sent with its error, and the records that need it are not computed.
+    """
+    from nodeterm.present import panes
+    width, two_d = options.get("width", 78), options.get("two_d", False)
+    for name in [r for r in RECORDS if r in wanted]:
+        carrier = study.with_choice(study.choice)
+        try:
+            if name == "matrix":
+                value = study.matrix
+                mwidth = options.get("matrix_width", width)
+                texts = {("matrix", mwidth): panes.matrix_text(value, mwidth)}
+            elif name == "solution":
+                value = study.solution
+                texts = {("results", two_d, width): _results(study, two_d, width)}
+            elif name == "verdicts":
+                value = study.verdicts
+                typed = options.get("claims") or {}
+                verdicts = list(value)
+                if typed:
+                    from nodeterm.engine.audit.verdicts import audit_claims
+                    verdicts += audit_claims(study.system, dict(typed), solution=study.solution)
+                key = tuple(typed.items())
+                texts = {("claims", key): "\n".join(panes.claims_lines(verdicts)), ("verdicts", key): tuple(verdicts)}
+            else:
+                from nodeterm.ui.analyses import analysis_lines
+                value = None
+                texts = {("analysis",): "\n".join(analysis_lines(study))}
+        except Exception as exc:  # noqa: BLE001 - sent on; the workbench shows it in the pane
+            send(name, Part(name, error=_picklable(exc)))
+            if name in ("matrix", "solution"):
+                return
+            continue
+        if value is not None:
+            carrier.__dict__[name] = value
+        send(name, Part(name, carrier, texts))
+
+
+def _results(study, two_d: bool, width: int) -> str:
+    from nodeterm.present import panes
     try:
-        printed = results_text(system, solution, two_d, width)
+        return panes.results_text(study.system, study.solution, two_d, width, pretty=panes.pretty)
     except Exception as exc:  # noqa: BLE001 - the solution is still good for the other panes
-        from nodeterm.ui.safety import describe
-        printed = f"! could not print the results: {describe(exc)}"
-    send("solved", Solved(matrix, "", solution, printed))
+        return f"! could not print the results: {type(exc).__name__}: {exc}"
+
+
+def _picklable(exc: BaseException) -> BaseException:
+    try:
+        pickle.dumps(exc)
+        return exc
+    except Exception:  # noqa: BLE001 - an exception that does not pickle: keep its text
+        return RuntimeError(f"{type(exc).__name__}: {exc}")
 
 
 def _child(conn, fn, args) -> None:
@@ -67,18 +115,15 @@ def _child(conn, fn, args) -> None:
         conn.send_bytes(pickle.dumps((kind, value), protocol=pickle.HIGHEST_PROTOCOL))
     try:
         fn(*args, send=send)
+        send("done", None)
     except BaseException as exc:  # noqa: BLE001 - handed to the parent, which reports it
-        try:
-            pickle.dumps(exc)
-        except Exception:  # noqa: BLE001 - an exception that does not pickle: keep its text
-            exc = RuntimeError(f"{type(exc).__name__}: {exc}")
-        send("error", exc)
+        send("error", _picklable(exc))
     finally:
         conn.close()
 
 
 def _returning(fn, *args, send) -> None:
-    send("done", fn(*args))
+    send("result", fn(*args))
 
 
 def context():
@@ -110,20 +155,24 @@ def start_server() -> None:
         pass
 
 
-def solve_in_process(system, two_d: bool, width: int, cancelled: Callable[[], bool],
-                     on_matrix: Callable[[Solved], None]) -> Solved:
-    """Solve ``system`` in a child process; ``on_matrix`` gets the matrix as soon as it is there.
+def records_in_process(study, wanted, options: dict, cancelled: Callable[[], bool],
+                       on_part: Callable[[Part], None]) -> None:
+    """Compute records of ``study`` in a child process (:func:`compute_records`); ``on_part`` gets each.
 
     Raises:
         Cancelled: ``cancelled()`` became true; the child has been terminated.
-        Exception: whatever the engine raised in the child (InputError, SolveError...).
     """
     if IN_CHILD:
         try:
-            return _run(solve_and_print, (system, two_d, width), cancelled, lambda kind, part: on_matrix(part))
+            _run(compute_records, (study, tuple(wanted), options), cancelled,
+                 lambda kind, part: on_part(part))
+            return
         except _NoChild:
             pass
-    return _solve_here(system, two_d, width, cancelled, on_matrix)
+    mine = study.with_choice(study.choice).adopt(study)  # a copy: a cancelled run must not fill the caller's
+    compute_records(mine, tuple(wanted), options, lambda kind, part: None if cancelled() else on_part(part))
+    if cancelled():
+        raise Cancelled()
 
 
 def call_in_child(fn: Callable, *args, cancelled: Callable[[], bool]):
@@ -170,8 +219,10 @@ def _run(fn, args, cancelled, on_part):
                     from None
             if kind == "error":
                 raise value
-            if kind in ("done", "solved"):
+            if kind == "result":
                 return value
+            if kind == "done":
+                return None
             if on_part is not None and not cancelled():
                 on_part(kind, value)
     finally:
@@ -179,19 +230,3 @@ def _run(fn, args, cancelled, on_part):
         if proc.is_alive():
             proc.terminate()
         proc.join(timeout=1)
-
-
-def _solve_here(system, two_d, width, cancelled, on_matrix) -> Solved:
-    """The same work in the calling thread (no child process could be started)."""
-    out: list[Solved] = []
-
-    def send(kind: str, value: Solved) -> None:
-        if kind == "matrix":
-            if not cancelled():
-                on_matrix(value)
-        else:
-            out.append(value)
-    solve_and_print(system, two_d, width, send)
-    if cancelled():
-        raise Cancelled()
-    return out[-1]

@@ -13,10 +13,10 @@ import pytest
 import sympy
 
 from nodeterm.engine import SolveError, build_system, parse_circuit
+from nodeterm.present import panes
 from nodeterm.ui import solver_process
-from nodeterm.ui.matrix_pane import matrix_text
-from nodeterm.ui.results_pane import results_text
 from nodeterm.engine.solving.solve import solve_system
+from nodeterm.engine.study import Study
 
 
 def chain(stages: int) -> str:
@@ -52,13 +52,24 @@ def test_the_work_runs_in_another_process():
     assert solver_process.call_in_child(os.getpid, cancelled=lambda: False) != os.getpid()
 
 
-def test_child_process_gives_the_same_text_as_this_process():
-    system = build_system(parse_circuit(chain(4)))
-    seen = []
-    done = solver_process.solve_in_process(system, False, 70, lambda: False, seen.append)
-    assert seen and seen[0].matrix_text == matrix_text(system.matrix())
-    assert done.printed == results_text(system, solve_system(system), False, 70)
-    assert done.solution.node_voltages.keys() == solve_system(system).node_voltages.keys()
+def records_of(study, wanted=("matrix", "solution"), cancelled=lambda: False, **options):
+    parts = []
+    solver_process.records_in_process(study, wanted, dict({"width": 70}, **options), cancelled, parts.append)
+    return {p.name: p for p in parts}
+
+
+def test_child_process_gives_the_same_records_and_text_as_this_process():
+    circuit = parse_circuit(chain(4))
+    parts = records_of(Study(circuit))
+    here = Study(circuit)
+    assert parts["matrix"].texts == {("matrix", 70): panes.matrix_text(here.matrix, 70)}
+    assert parts["solution"].texts == {("results", False, 70): panes.results_text(here.system, here.solution,
+                                                                                  False, 70, panes.pretty)}
+    theirs = Study(circuit).adopt(parts["solution"].carrier)
+    assert theirs.computed("solution")
+    assert theirs.solution.node_voltages.keys() == here.solution.node_voltages.keys()
+    for node, v in here.solution.node_voltages.items():
+        assert sympy.simplify(sympy.sympify(theirs.solution.node_voltages[node]) - sympy.sympify(v)) == 0
 
 
 def test_engine_errors_come_back_as_themselves():
@@ -66,21 +77,33 @@ def test_engine_errors_come_back_as_themselves():
             'R1 = { kind = "resistor", nodes = ["a", "out"], value = "1k" }\n'
             'I1 = { kind = "current_source", nodes = ["out", "x"], value = "1m" }\n'
             'I2 = { kind = "current_source", nodes = ["x", "gnd"], value = "1m" }\n')  # x: only current sources
-    system = build_system(parse_circuit(text))
+    circuit = parse_circuit(text)
     with pytest.raises(SolveError) as local:
-        solve_system(system)
-    with pytest.raises(type(local.value)) as remote:
-        solver_process.solve_in_process(system, False, 70, lambda: False, lambda part: None)
-    assert str(remote.value) == str(local.value)
+        Study(circuit).solution  # noqa: B018
+    parts = records_of(Study(circuit), ("matrix", "solution", "verdicts"))
+    error = parts["solution"].error
+    assert type(error) is type(local.value) and str(error) == str(local.value)
+    assert "verdicts" not in parts        # what needs the solution is not attempted
 
 
 def test_cancelling_terminates_the_child():
-    system = build_system(parse_circuit(chain(4)))
+    study = Study(parse_circuit(chain(4)))
     start = time.monotonic()
     with pytest.raises(solver_process.Cancelled):
-        solver_process.solve_in_process(system, False, 70, lambda: time.monotonic() - start > 0.01,
-                                        lambda part: None)
+        records_of(study, cancelled=lambda: time.monotonic() - start > 0.01)
     assert not [p for p in __import__("multiprocessing").active_children() if p.name == "nodeterm-solver"]
+
+
+def test_the_solver_process_imports_no_widget():
+    """The child computes records and prints pane text from the engine and the presenters only."""
+    import subprocess
+    import sys
+    code = ("import sys; import nodeterm.ui.solver_process as sp, nodeterm.ui.analyses; "
+            "print(sorted(m for m in sys.modules if m.startswith('textual') or m.endswith('_pane')))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == "[]"
+    for name in solver_process.PRELOAD:
+        assert not name.endswith("_pane") and "textual" not in name
 
 
 def own_symbols_chain(stages: int) -> str:

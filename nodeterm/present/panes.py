@@ -1,0 +1,382 @@
+"""The text of the workbench's panes: pure functions of the engine's records (no Textual).
+
+The workbench's widgets only put these strings on screen, and its solver process builds the long
+ones (matrix, results, analyses) without importing any widget. Every function here reads records
+(circuit, system, matrix, solution, verdicts, warnings) and returns text; none computes circuit
+results.
+"""
+
+from __future__ import annotations
+
+import textwrap
+from functools import lru_cache
+
+from nodeterm.present.format import equation_text, expr_text, value_text
+
+MARK = "▶"       # marks the selected item (a textual marker, legible without colour)
+TIED = "*"       # marks items tied to the selection
+SOURCE_KINDS = ("voltage_source", "current_source", "vcvs", "vccs", "ccvs", "cccs")
+TERMS_KINDS = ("kcl", "supernode_kcl")
+
+
+# --- parts and nodes ----------------------------------------------------------------------------
+def part_nodes(part) -> str:
+    """Where a part connects, e.g. ``in -> inv`` or ``+gnd -inv out=out`` for an op-amp."""
+    if part.kind == "opamp":
+        return f"+{part.plus} -{part.minus} out={part.out}"
+    text = " -> ".join(part.nodes[:2])
+    if isinstance(part.control, tuple) and part.control:
+        text += f" (senses {' - '.join(part.control)})"
+    elif isinstance(part.control, str) and part.control:
+        text += f" (senses I_{part.control})"
+    return text
+
+
+def part_value(part) -> str:
+    """The value (or gain) written for a part, in one line."""
+    if part.kind == "opamp":
+        return "ideal" if getattr(part, "ideal", True) else f"gain {expr_text(part.gain)}"
+    if part.value is not None:
+        return expr_text(part.value)
+    if part.gain is not None:
+        return f"gain {expr_text(part.gain)}"
+    return ""
+
+
+def part_group(part) -> str:
+    """Which results heading a part's current belongs under."""
+    if part.kind == "opamp":
+        return "opamp"
+    if part.kind in SOURCE_KINDS:
+        return "source"
+    return "part"
+
+
+def node_roles(circuit) -> dict[str, str]:
+    """node -> role text ("reference, 0 V", "output of U1", or "")."""
+    roles = {n: "" for n in circuit.nodes}
+    roles[circuit.reference] = "reference, 0 V"
+    for p in circuit.parts:
+        if p.kind == "opamp":
+            roles[p.out] = (roles[p.out] + "; " if roles[p.out] else "") + f"output of {p.id}"
+    return roles
+
+
+def pins(part) -> list[tuple[str, str]]:
+    """(pin name, node) of every connection of a part, in the order the file gives them."""
+    if part.kind == "opamp":
+        return [("+", part.plus), ("-", part.minus), ("out", part.out)]
+    names = ("1", "2") if len(part.nodes) == 2 else tuple(str(i + 1) for i in range(len(part.nodes)))
+    return list(zip(names, part.nodes))
+
+
+def connection_lines(circuit) -> list[str]:
+    """Which parts and pins meet at each node (the quickest way to spot a wiring typo).
+
+    A node with a single connection is flagged: nothing else is wired to it.
+    """
+    at: dict[str, list[str]] = {n: [] for n in circuit.nodes}
+    for p in circuit.parts:
+        for pin, node in pins(p):
+            at.setdefault(node, []).append(f"{p.id}.{pin}")
+    width = max((len(n) for n in at), default=1)
+    out = []
+    for node, conns in at.items():
+        flag = "   ! only one connection" if len(conns) == 1 else ""
+        out.append(f"  {node.ljust(width)}  {', '.join(conns)}{flag}")
+    return out
+
+
+# --- the circuit pane ---------------------------------------------------------------------------
+def warning_lines(warnings) -> list[str]:
+    return [f"! {getattr(w, 'message', w)}" for w in warnings]
+
+
+def circuit_lines(circuit, values: dict, warnings=()) -> list[str]:
+    """The circuit overview: title, warnings, nodes with what meets there, parts, parameters, [find]."""
+    c = circuit
+    out = [c.title or "(untitled circuit)", f"file: {c.path or '-'}", ""]
+    if warnings:
+        out += warning_lines(warnings) + [""]
+    roles = node_roles(c)
+    out.append(f"Reference node: {c.reference} (0 V)")
+    out.append("Nodes and what meets there (part.pin; pins 1 and 2 in file order):")
+    conns = connection_lines(c)
+    for line, n in zip(conns, list(roles) + [None] * len(conns)):
+        out.append(line + (f"  ({roles[n]})" if n in roles and roles[n] else ""))
+    out.append("")
+    out.append("Parts (id, kind, nodes, value):")
+    wid = max((len(p.id) for p in c.parts), default=2)
+    wk = max((len(p.kind) for p in c.parts), default=4)
+    wn = max((len(part_nodes(p)) for p in c.parts), default=4)
+    for p in c.parts:
+        out.append(f"  {p.id.ljust(wid)}  {p.kind.ljust(wk)}  {part_nodes(p).ljust(wn)}  {part_value(p)}".rstrip())
+    out.append("")
+    out.append("Parameters (value in the file; value substituted now):")
+    if not c.parameters:
+        out.append("  (none)")
+    wp = max((len(n) for n in c.parameters), default=2)
+    for name, prm in c.parameters.items():
+        written = prm.text if prm.value is not None else "no value (stays a symbol)"
+        now = values.get(name)
+        tail = f"   now = {expr_text(now)}" if now is not None else ""
+        out.append(f"  {name.ljust(wp)}  {written}{tail}")
+    if c.find:
+        out.append("")
+        out.append("Asked quantities [find]:")
+        for name, item in c.find.items():
+            out.append(f"  {name} = {item.text}")
+    return out
+
+
+# --- the steps pane -----------------------------------------------------------------------------
+def step_head(index: int, total: int, step) -> str:
+    return f"Step {index + 1} of {total}: {step.title}"
+
+
+def step_text(step) -> str:
+    """What the step did, with the unknowns it leaves; said once."""
+    extra = []
+    if step.kind == "reference" and step.data.get("unknowns"):
+        extra.append("Unknowns: " + ", ".join(step.data["unknowns"]))
+    if step.kind == "known_substitution" and step.data.get("unknowns"):
+        extra.append("Left to solve for: " + ", ".join(step.data["unknowns"]))
+    if not step.equations:
+        extra.append("(no equations at this step)")
+    return "\n".join([step.text] + extra)
+
+
+def pretty(expr, width: int) -> str | None:
+    """SymPy's 2-D form of ``expr`` when every line fits ``width`` columns, else None."""
+    import sympy
+    try:
+        text = sympy.pretty(expr, use_unicode=True, wrap_line=False)
+    except Exception:  # noqa: BLE001 - the 2-D form is optional decoration; the caller keeps one line
+        return None
+    return text if max((len(ln) for ln in text.splitlines()), default=0) <= width else None
+
+
+@lru_cache(maxsize=4096)
+def equation_body(eq, two_d: bool = False, width: int = 70) -> str:
+    """An equation in the chosen form: one line, or 2-D when it fits (cached: selections redraw it)."""
+    if two_d:
+        import sympy
+        text = pretty(sympy.Eq(eq.lhs, eq.rhs, evaluate=False), width)
+        if text is not None:
+            return text
+    return equation_text(eq)
+
+
+def equation_parts(eq) -> tuple[str, ...]:
+    return tuple(t.part for t in eq.terms) or tuple(eq.parts)
+
+
+def equation_prompt(eq, mark: str, selected_part: str | None, body: str) -> str:
+    """One equation of the steps pane: its label, its body (one-line or 2-D), one line per KCL term."""
+    lines = [f"{mark} [{eq.label}]"] + ["    " + ln for ln in body.splitlines()]
+    if eq.terms and eq.kind in TERMS_KINDS:
+        for t in eq.terms:
+            tmark = TIED if t.part == selected_part else " "
+            lines.append(f"   {tmark} {t.part}: {expr_text(t.expr, hand=True)}")
+    elif eq.parts:
+        lines.append("     parts: " + ", ".join(eq.parts))
+    return "\n".join(lines)
+
+
+def part_prompt(part, mark: str) -> str:
+    where = part_nodes(part).replace(" out=", "\n    out=")
+    return f"{mark} {part.id} {part.kind}\n    {where}"
+
+
+# --- the values pane ----------------------------------------------------------------------------
+def value_rows(parameters, values: dict) -> dict[str, str]:
+    """name -> one row of the parameter list: the file's value and the value substituted now."""
+    width = max((len(n) for n in parameters), default=2)
+    wfile = max((len(p.text) for p in parameters.values() if p.value is not None), default=1)
+    rows = {}
+    for name, prm in parameters.items():
+        written = prm.text if prm.value is not None else "-"
+        now = values.get(name)
+        state = f"now {value_text(now)}" if now is not None else "now a symbol"
+        rows[name] = f"{name.ljust(width)}  file: {written.ljust(wfile)}  {state}"
+    return rows
+
+
+def history_text(done: list[str], undone: list[str]) -> str:
+    text = "Applied, in order: " + ("; ".join(f"{i}. {h}" for i, h in enumerate(done, 1)) or "nothing yet")
+    if undone:
+        text += f"   (Ctrl+R redoes: {undone[0]})"
+    return text
+
+
+# --- the matrix pane ----------------------------------------------------------------------------
+MATRIX_INTRO = ("A x = b after the substitutions so far: one row per equation left,\n"
+                "one column per unknown.")
+
+
+def matrix_lines(m, width: int = 78) -> list[str]:
+    """A x = b as aligned tables no wider than ``width``: the columns of A in blocks, b in the last one.
+
+    Every block repeats the equation labels, so the b column is never off screen at 80 columns.
+    """
+    if not m.rows:
+        return ["(no equations left to solve)"]
+    labels = ["equation"] + list(m.rows)
+    cols = [[c] + [expr_text(m.A[i, j]) for i in range(len(m.rows))] for j, c in enumerate(m.cols)]
+    b = ["| b"] + ["| " + expr_text(m.b[i, 0]) for i in range(len(m.rows))]
+    wl = max(len(x) for x in labels)
+    blocks: list[list[list[str]]] = [[]]
+    used = wl
+    for col in cols + [b]:
+        w = max(len(x) for x in col) + 2
+        if blocks[-1] and used + w > width:
+            blocks.append([])
+            used = wl
+        blocks[-1].append(col)
+        used += w
+    out: list[str] = []
+    for k, block in enumerate(blocks):
+        if len(blocks) > 1:
+            out.append(f"(part {k + 1} of {len(blocks)})")
+        widths = [wl] + [max(len(x) for x in col) for col in block]
+        table = [labels] + block
+        for r in range(len(labels)):
+            out.append("  ".join(t[r].ljust(w) for t, w in zip(table, widths)).rstrip())
+            if r == 0:
+                out.append("  ".join("-" * w for w in widths))
+        out.append("")
+    return out[:-1]
+
+
+def matrix_text(m, width: int = 78) -> str:
+    return "\n".join([MATRIX_INTRO, ""] + matrix_lines(m, width))
+
+
+# --- the results pane ---------------------------------------------------------------------------
+RESULT_HEADINGS = {
+    "part": "Part currents (from its first node to its second)",
+    "opamp": "Op-amp output currents (out of the output pin)",
+    "source": "Source currents (from its first node to its second, through the source)",
+}
+MAX_RESULT_LINES = 60
+"""Lines of one result shown in the pane (wrapped to its width); a longer one is cut with a note
+(Textual lays out every line, and a 16-stage symbolic chain has results of megabytes). The exports
+keep every result whole."""
+
+
+def wrap_value(text: str, width: int, indent: int = 6) -> str:
+    """A long one-line result wrapped to ``width``, continuation lines indented; past
+    :data:`MAX_RESULT_LINES` lines it is cut with a note (the exports keep it whole)."""
+    if len(text) <= width:
+        return text
+    width = max(20, width)
+    room = width * MAX_RESULT_LINES
+    lines = textwrap.wrap(text[:room], width=width, subsequent_indent=" " * indent,
+                          break_long_words=True, break_on_hyphens=False)
+    if len(text) > room or len(lines) > MAX_RESULT_LINES:
+        lines = lines[:MAX_RESULT_LINES - 1]
+        lines.append(" " * indent + f"... cut: {len(text):,} characters in all (e exports it whole)")
+    return "\n".join(lines)
+
+
+def _value(expr, unit: str, two_d: bool, width: int, lead: int, pretty) -> str:
+    if two_d and pretty is not None and not getattr(expr, "is_large", False):  # never 2-D for a huge one
+        text = pretty(expr, width)
+        if text is not None and "\n" in text:
+            return "\n" + "\n".join("      " + ln for ln in text.splitlines())
+    return wrap_value(" " * lead + value_text(expr, unit), width)[lead:]
+
+
+def result_lines(system, solution, two_d: bool = False, width: int = 78, pretty=None) -> list[str]:
+    """The results pane: node voltages, currents grouped by kind, [find] quantities.
+
+    ``pretty(expr, width)`` gives the 2-D form (or None when it does not fit); long one-line results
+    wrap to ``width``.
+    """
+    c = system.circuit
+    out = []
+    if system.values:
+        out.append("With " + ", ".join(f"{k} = {v}" for k, v in system.values.items()))
+    else:
+        out.append("Symbolic: no values substituted yet (k substitutes every value the file gives)")
+    out += ["", "Node voltages"]
+    for n, v in solution.node_voltages.items():
+        tag = "  (reference)" if n == c.reference else ""
+        head = f"  V_{n} = "
+        out.append(head + _value(v, "V", two_d, width, len(head), pretty) + tag)
+    for group in ("opamp", "source", "part"):
+        parts = [p for p in c.parts if part_group(p) == group]
+        if not parts:
+            continue
+        out += ["", RESULT_HEADINGS[group]]
+        for p in parts:
+            where = f"   [{p.kind} {part_nodes(p)}]" if group != "opamp" else f"   [into node {p.out}]"
+            head = f"  I_{p.id} = "
+            out.append(head + _value(solution.currents[p.id], "A", two_d, width, len(head), pretty) + where)
+    if solution.find:
+        out += ["", "Asked quantities [find]"]
+        for name, v in solution.find.items():
+            head = f"  {name} = "
+            out.append(head + _value(v, "", two_d, width, len(head), pretty) + f"   ({c.find[name].text})")
+    if solution.is_reactive:
+        out += ["", "Results depend on s (Laplace variable): they are transfer functions / impedances."]
+    return out
+
+
+def results_text(system, solution, two_d: bool = False, width: int = 78, pretty=None) -> str:
+    return "\n".join(result_lines(system, solution, two_d, width, pretty))
+
+
+# --- the claims pane ----------------------------------------------------------------------------
+def claims_lines(verdicts) -> list[str]:
+    from nodeterm.present.text import verdict_lines
+    if not verdicts:
+        return ["(no claims yet: type one above; a [hand] table in the file is checked too)"]
+    from nodeterm.engine.audit.verdicts import summary
+    return [summary(list(verdicts)), ""] + verdict_lines(list(verdicts))
+
+
+# --- the status line ----------------------------------------------------------------------------
+def status_line(pane: str, file: str | None, step: tuple[int, int] | None, values: int | None,
+                two_d: bool, busy: tuple[str, int] | None, width: int = 80) -> str:
+    """The top line: pane, file, step, values, form, and (only while busy) what runs and for how long.
+
+    The file name is shortened in the middle so that the line fits ``width``.
+    """
+    head = [f"[{pane.capitalize()}]"] if pane else []
+    tail = []
+    if step:
+        tail.append(f"step {step[0]}/{step[1]}")
+    if values is not None:
+        tail.append(f"{values} value{'s' if values != 1 else ''}" if values else "symbolic")
+    if two_d:
+        tail.append("2-D form")
+    if busy:
+        tail.append(f"BUSY {busy[0]} {busy[1]}s, c cancels")
+    if file:
+        room = width - len(" | ".join(head + tail)) - 3
+        if len(file) > room:
+            keep = max(3, room - 1)
+            file = file[:keep // 2] + "~" + file[len(file) - (keep - keep // 2):]
+        head.append(file)
+    return " | ".join(head + tail)
+
+
+def note_lines(text: str, width: int) -> str:
+    """A message wrapped to a pane ``width`` wide."""
+    width = max(20, width)
+    return "\n".join(textwrap.fill(line, width, break_on_hyphens=False) if line else ""
+                     for line in text.splitlines())
+
+
+# --- the analysis pane --------------------------------------------------------------------------
+def analysis_sections(sections: list[tuple[str, list[str]]], note: str) -> list[str]:
+    """Titled sections of analysis text (each already formatted), then the linear-model note."""
+    out: list[str] = []
+    for title, lines in sections:
+        if lines:
+            out += [title, "-" * len(title)] + list(lines) + [""]
+    if not out:
+        out = ["No analysis applies: no [find] quantity depends on s, no op-amp has limits or a real model.", ""]
+    out.append(f"note: {note}")
+    return out
