@@ -112,6 +112,16 @@ class Terminal:
                 return
             time.sleep(0.02)
 
+    def answer(self, before: int, seconds: float = 0.5, timeout: float = 30.0) -> int:
+        """Wait for output past byte ``before`` (the answer to a key), then for ``seconds`` of quiet;
+        returns the bytes written since ``before`` (0 when nothing came within ``timeout``)."""
+        end = time.perf_counter() + timeout
+        while self.total <= before and time.perf_counter() < end:
+            time.sleep(0.01)
+        if self.total > before:
+            self.quiet(seconds, timeout)
+        return self.total - before
+
     # --- writing ----------------------------------------------------------------------------
     def send(self, keys: str) -> None:
         os.write(self.master, keys.encode())

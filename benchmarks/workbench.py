@@ -171,31 +171,25 @@ async def walk(app_class, path: str, open_limit: float = 120.0, settle_limit: fl
 
 
 def blocking_app_class():
-    """The peer: the workbench with its solve done on the event loop instead of in a worker."""
+    """The peer: the workbench with its records computed and printed on the event loop instead of in a
+    child process."""
+    from nodeterm.ui import solver_process
     from nodeterm.ui.app import Workbench
+    from nodeterm.ui.matrix_pane import MatrixPane
     from nodeterm.ui.results_pane import ResultsPane
-    from nodeterm.ui.solver_process import solve_and_print
 
     class BlockingWorkbench(Workbench):
         CSS_PATH = str(ROOT / "nodeterm" / "ui" / "workbench.tcss")  # relative paths follow the subclass
 
-        def start_solve(self) -> None:
-            if self.system is None:
+        def request_records(self) -> None:
+            entry = self.entry
+            wanted = self._wanted(entry) if entry is not None else []
+            if not wanted:
                 return
-            self.workers.cancel_group(self, "analysis")
-            self.analysed = None
-            system = self.system
-            self.busy_since = time.monotonic()
-            matrix_shown, printed = [], []
-
-            def send(kind, part) -> None:
-                (matrix_shown if kind == "matrix" else printed).append(part)
-            try:
-                solve_and_print(system, self.two_d, self.query_one(ResultsPane).text_width, send)
-                self._solved(system, printed[0].matrix, matrix_shown[0].matrix_text, printed[0].solution,
-                             printed[0].printed, None, True)
-            except Exception as exc:  # noqa: BLE001
-                self._solved(system, None, "", None, "", exc, True)
+            options = {"width": self.query_one(ResultsPane).text_width, "two_d": self.two_d,
+                       "claims": dict(self.session.claims), "matrix_width": self.query_one(MatrixPane).text_width}
+            solver_process.compute_records(entry.study, tuple(wanted), options,
+                                           lambda kind, part: self._received(entry, part))
     return BlockingWorkbench
 
 
@@ -250,7 +244,124 @@ def measure(quick: bool = False, row=None) -> dict:
     return results
 
 
-def _print_row(case, ours, peer, peer_name, note=""):
+# --- in a real terminal: bytes written, first screen, results of a big symbolic circuit -------------
+STEP_BYTES_TARGET = 5000    # bytes per step key at 80x24
+ENV = None
+
+
+def _env() -> dict:
+    import os
+    return dict(os.environ, NO_COLOR="1", TERM="xterm-256color")
+
+
+def ladder(n: int) -> str:
+    """RC low-pass ladder of n sections, every R and C its own symbol, [find] H = V_n<n>/Vin."""
+    lines = [f'title = "RC ladder, {n} sections"', 'reference = "gnd"', "[parameters]", 'Vin = ""']
+    lines += [f'R{k} = ""\nC{k} = ""' for k in range(1, n + 1)]
+    lines += ["[parts]", 'VS = { kind = "voltage_source", nodes = ["n0", "gnd"], value = "Vin" }']
+    for k in range(1, n + 1):
+        lines.append(f'RS{k} = {{ kind = "resistor", nodes = ["n{k - 1}", "n{k}"], value = "R{k}" }}')
+        lines.append(f'CS{k} = {{ kind = "capacitor", nodes = ["n{k}", "gnd"], value = "C{k}" }}')
+    lines += ["[find]", f'H = "V_n{n}/V_n0"']
+    return "\n".join(lines) + "\n"
+
+
+def _open(args: list[str]):
+    sys.path.insert(0, str(Path(__file__).resolve().parent))
+    from terminal import Terminal
+    return Terminal([sys.executable, "-m", "nodeterm", *args], SIZE[0], SIZE[1], env=_env(), cwd=str(ROOT))
+
+
+def _settled(term, seconds: float = 1.5) -> None:
+    """Wait until nothing is written for ``seconds`` (the busy time ticks once a second while busy)."""
+    term.quiet(seconds, timeout=120)
+
+
+def first_screen(path: str | None = None, runs: int = 3) -> list[float]:
+    """Seconds from starting a new interpreter to the steps pane on the terminal."""
+    times = []
+    for _ in range(runs):
+        term = _open([path] if path else [])
+        times.append(term.wait_for("Step 1 of", 60) - term.started)
+        _settled(term, 1.0)
+        term.send("q")
+        term.close()
+    return times
+
+
+def terminal_bytes(path: str | None = None, idle_seconds: float = 5.0) -> dict:
+    """Bytes written per step key (n and b, each after the screen settled) and per idle second."""
+    term = _open([path] if path else [])
+    term.wait_for("Step 1 of", 60)
+    _settled(term)
+    steps = []
+    for key in "nnnnbbbb":
+        before = term.total
+        term.send(key)
+        steps.append(term.answer(before, 0.5, 10))
+    _settled(term, 2.0)
+    before = term.total
+    time.sleep(idle_seconds)
+    idle = (term.total - before) / idle_seconds
+    keys = {}
+    for key, label in (("k", "substitute known"), ("u", "undo"), ("5", "results pane"), ("2", "steps pane")):
+        before = term.total
+        term.send(key)
+        keys[label] = term.answer(before, 1.5, 60)
+    term.send("q")
+    term.close()
+    return {"steps": steps, "idle_per_s": idle, "keys": keys}
+
+
+def ladder_results(n: int = 9, runs: int = 2) -> dict:
+    """Seconds to the results of the fully symbolic n-section ladder: workbench (from a new interpreter,
+    results pane opened at the first screen) against ``nodeterm solve`` as a whole process."""
+    out: dict = {"workbench": [], "cli": []}
+    with tempfile.TemporaryDirectory() as tmp:
+        path = str(Path(tmp) / f"ladder{n}.toml")
+        Path(path).write_text(ladder(n))
+        for _ in range(runs):
+            start = time.perf_counter()
+            subprocess.run([sys.executable, "-m", "nodeterm", "solve", path], capture_output=True, cwd=ROOT,
+                           check=True, env=_env())
+            out["cli"].append(time.perf_counter() - start)
+            term = _open([path])
+            term.wait_for("Step 1 of", 60)
+            term.send("5")
+            out["workbench"].append(term.wait_for("Node voltages", 300) - term.started)
+            _settled(term, 1.0)
+            term.send("q")
+            term.close()
+    return out
+
+
+def measure_terminal(row) -> dict:
+    """The terminal rows of the benchmark table."""
+    first = first_screen()
+    row("workbench first screen (kiln demo, pty 80x24)", min(first), None, "",
+        f"{min(first) / FIRST_SCREEN_TARGET:.2f} of the 1 s target from a new interpreter; runs "
+        + ", ".join(f"{t:.2f}" for t in first))
+    chain = None
+    with tempfile.TemporaryDirectory() as tmp:
+        chain = Path(tmp) / "chain.toml"
+        chain.write_text(signal_chain(16, False))
+        for label, path in (("kiln demo", None), ("50-node chain", str(chain))):
+            got = terminal_bytes(path)
+            row(f"bytes per step key, {label}", max(got["steps"]), None, "",
+                f"max of n x4, b x4 (target {STEP_BYTES_TARGET}); each: {got['steps']}; "
+                f"idle {got['idle_per_s']:.0f} B/s (target 0); " + ", ".join(f"{k} {v}" for k, v in got["keys"].items()),
+                unit="B")
+    lad = ladder_results()
+    wb, cli = min(lad["workbench"]), min(lad["cli"])
+    row("9-section symbolic ladder: results in the workbench", wb, cli, "nodeterm solve (whole process)",
+        f"{wb / cli:.2f}x the CLI (target at most 2x); runs " + ", ".join(f"{t:.2f}" for t in lad["workbench"]))
+    return {"first": first, "ladder": lad}
+
+
+def _print_row(case, ours, peer, peer_name, note="", unit="s"):
+    if unit == "B":
+        print(f"{case:44s} {ours:7d} B         -         -  {peer_name:26s} {note}", flush=True)
+        return
     ratio = f"{peer / ours:8.1f}x" if peer else "       -"
     peer_t = f"{peer:9.3f}" if peer else "        -"
     print(f"{case:44s} {ours:9.3f} {peer_t}  {ratio}  {peer_name:26s} {note}", flush=True)
@@ -259,11 +370,15 @@ def _print_row(case, ours, peer, peer_name, note=""):
 if __name__ == "__main__":
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--quick", action="store_true", help="only the identical-stages circuit")
+    ap.add_argument("--terminal", action="store_true", help="only the measurements in a real terminal (pty)")
     ap.add_argument("--walk", help=argparse.SUPPRESS)
     ap.add_argument("--blocking", action="store_true", help=argparse.SUPPRESS)
     ap.add_argument("--open-limit", type=float, default=120.0, help=argparse.SUPPRESS)
     args = ap.parse_args()
     if args.walk:
         _child_walk(args.walk, args.blocking, args.open_limit)
+    elif args.terminal:
+        measure_terminal(_print_row)
     else:
+        measure_terminal(_print_row)
         measure(args.quick, _print_row)

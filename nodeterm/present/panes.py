@@ -183,9 +183,14 @@ def equation_prompt(eq, mark: str, selected_part: str | None, body: str) -> str:
     return "\n".join(lines)
 
 
-def part_prompt(part, mark: str) -> str:
+def part_prompt(part, mark: str, width: int = 18) -> str:
+    """A part in the steps pane's parts list: id and kind (the kind on its own line when the list is
+    narrow), then where it connects."""
     where = part_nodes(part).replace(" out=", "\n    out=")
-    return f"{mark} {part.id} {part.kind}\n    {where}"
+    head = f"{mark} {part.id} {part.kind}"
+    if len(head) > width:
+        head = f"{mark} {part.id}\n    {part.kind}"
+    return f"{head}\n    {where}"
 
 
 # --- the values pane ----------------------------------------------------------------------------

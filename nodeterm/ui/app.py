@@ -58,7 +58,10 @@ class Workbench(App):
     BINDINGS = [Binding(k.keys, k.action, k.shown or k.title, show=bool(k.shown)) for k in KEYS]
 
     def __init__(self, path: str | None = None, poll: bool = True) -> None:
-        super().__init__()
+        # NO_COLOR: the terminal's own colours with every colour removed, instead of greys in 256
+        # colours (a third of the bytes of every redraw over SSH)
+        self.plain = os.environ.get("NO_COLOR") is not None
+        super().__init__(ansi_color=True if self.plain else None)
         solver_process.start_server()  # before Textual takes over sys.stderr
         self.start_path = path
         self.poll = poll
@@ -68,6 +71,16 @@ class Workbench(App):
         self.last_error = ""        # last error shown (tests read it)
         self.last_message = ""
         self._busy_timer = None
+
+    def get_driver_class(self):
+        """The platform's driver, sending only the screen lines that changed (:mod:`.lean_output`)."""
+        from nodeterm.ui.lean_output import lean_driver
+        return lean_driver(super().get_driver_class())
+
+    def on_resize(self) -> None:
+        cache = getattr(self._driver, "line_cache", None)
+        if cache is not None:
+            cache.forget()  # the terminal may have redrawn or cut anything
 
     # --- layout -----------------------------------------------------------
     def compose(self):
@@ -93,6 +106,8 @@ class Workbench(App):
         yield Footer()
 
     def on_mount(self) -> None:
+        if self.plain:
+            self.theme = "ansi-dark"
         threads.install()
         # Everything alive now lives as long as the app: keep it out of the collector's full passes,
         # which otherwise pause the loop ~0.1 s.
@@ -640,7 +655,8 @@ class Workbench(App):
         from nodeterm.present.text import matrix_lines, steps_lines
         entry = self.entry
         system = entry.system
-        if entry.has("solution"):
+        if entry.has("solution") or self._text_keys()["solution"] in entry.texts:
+            # a large solution stays in the solver process (only its text comes back): solve it here
             return render(system, entry.study.solution, self.verdicts, fmt)
         if fmt not in ("text", "ascii"):
             raise InputError(f"the {fmt} export needs the results, and the solve has not finished",

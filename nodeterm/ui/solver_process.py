@@ -71,6 +71,8 @@ def compute_records(study, wanted, options: dict, send: Callable[[str, object], 
             elif name == "solution":
                 value = study.solution
                 texts = {("results", two_d, width): _results(study, two_d, width)}
+                if _large(value):  # megabytes to pickle and seconds to unpickle: only its text goes back
+                    value = None
             elif name == "verdicts":
                 value = study.verdicts
                 typed = options.get("claims") or {}
@@ -92,6 +94,13 @@ def compute_records(study, wanted, options: dict, send: Callable[[str, object], 
         if value is not None:
             carrier.__dict__[name] = value
         send(name, Part(name, carrier, texts))
+
+
+def _large(solution) -> bool:
+    """True when a solution holds results kept as polynomials (a 9-section symbolic ladder's pickle is
+    tens of megabytes): the workbench gets their text, and the records that need them are computed here."""
+    values = list(solution.node_voltages.values()) + list(solution.currents.values()) + list(solution.find.values())
+    return any(getattr(v, "is_large", False) for v in values)
 
 
 def _results(study, two_d: bool, width: int) -> str:
