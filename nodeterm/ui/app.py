@@ -263,6 +263,7 @@ class Workbench(App):
         width = self.query_one(ResultsPane).text_width
         return {"matrix": ("matrix", self.query_one(MatrixPane).text_width),
                 "solution": ("results", self.two_d, width),
+                "warnings": ("warnings",),
                 "verdicts": ("claims", tuple(self.session.claims.items())),
                 "analysis": ("analysis",)}
 
@@ -300,6 +301,8 @@ class Workbench(App):
             return []
         wanted = [name for name in ("matrix", "solution") if keys[name] not in entry.texts
                   and ("error", name) not in entry.texts]
+        if not entry.has("warnings") and ("error", "warnings") not in entry.texts:
+            wanted.append("warnings")
         if keys["verdicts"] not in entry.texts and (entry.system.circuit.hand or self.session.claims) \
                 and ("error", "verdicts") not in entry.texts:
             wanted.append("verdicts")
@@ -353,8 +356,10 @@ class Workbench(App):
             entry.texts.update(part.texts)
         if entry is self.entry:
             self._show_records(entry)
-            if part.name == "solution" and entry.has("warnings"):
+            if part.name == "warnings":
                 self._show_warnings(entry)
+                self.query_one(CircuitPane).show_text("\n".join(
+                    panes.circuit_lines(entry.system.circuit, entry.system.values, self._warnings(entry))))
 
     @guarded
     def _finished(self, entry: Entry, error) -> None:
@@ -657,7 +662,11 @@ class Workbench(App):
         system = entry.system
         if entry.has("solution") or self._text_keys()["solution"] in entry.texts:
             # a large solution stays in the solver process (only its text comes back): solve it here
-            return render(system, entry.study.solution, self.verdicts, fmt)
+            from nodeterm.engine.study import Records
+            study = entry.study
+            return render(Records(study.circuit, study.choice, system=system, matrix=study.matrix,
+                                  solution=study.solution, warnings=tuple(study.warnings),
+                                  verdicts=tuple(self.verdicts)), fmt)
         if fmt not in ("text", "ascii"):
             raise InputError(f"the {fmt} export needs the results, and the solve has not finished",
                              hint="wait for it (or press s to solve again), then export")

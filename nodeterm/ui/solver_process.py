@@ -37,7 +37,7 @@ class Cancelled(Exception):
     """The caller no longer wants the answer (the child was terminated)."""
 
 
-RECORDS = ("matrix", "solution", "verdicts", "analysis")
+RECORDS = ("matrix", "solution", "warnings", "verdicts", "analysis")
 """What the workbench asks the solver process for, in this order."""
 
 
@@ -73,6 +73,9 @@ def compute_records(study, wanted, options: dict, send: Callable[[str, object], 
                 texts = {("results", two_d, width): _results(study, two_d, width)}
                 if _large(value):  # megabytes to pickle and seconds to unpickle: only its text goes back
                     value = None
+            elif name == "warnings":
+                value = study.warnings
+                texts = {}
             elif name == "verdicts":
                 value = study.verdicts
                 typed = options.get("claims") or {}

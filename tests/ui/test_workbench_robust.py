@@ -35,7 +35,7 @@ async def test_failing_action_is_reported_logged_and_state_kept(kiln, cache_home
 
 async def test_long_solve_shows_busy_and_can_be_cancelled(kiln, monkeypatch):
     release = threading.Event()
-    from nodeterm.engine.solving import solve as solve_module
+    from nodeterm.engine import study as solve_module  # where the study calls the solver
     real = solve_module.solve_system
 
     def slow(system):
@@ -89,7 +89,7 @@ async def test_quit_during_a_long_solve_does_not_wait_for_it(kiln, monkeypatch):
         names.append((threading.current_thread().name, threading.current_thread().daemon))
         release.wait(30)
         raise RuntimeError("abandoned")
-    monkeypatch.setattr("nodeterm.engine.solving.solve.solve_system", stuck)
+    monkeypatch.setattr("nodeterm.engine.study.solve_system", stuck)
     monkeypatch.setattr(solver_process, "IN_CHILD", False)  # the patched solve exists in this process only
     app = Workbench(str(kiln), poll=False)
     try:
