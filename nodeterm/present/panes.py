@@ -11,6 +11,7 @@ from __future__ import annotations
 import textwrap
 from functools import lru_cache
 
+from nodeterm.present.connections import connection_lines
 from nodeterm.present.format import equation_text, expr_text, value_text
 
 MARK = "▶"       # marks the selected item (a textual marker, legible without colour)
@@ -62,37 +63,12 @@ def node_roles(circuit) -> dict[str, str]:
     return roles
 
 
-def pins(part) -> list[tuple[str, str]]:
-    """(pin name, node) of every connection of a part, in the order the file gives them."""
-    if part.kind == "opamp":
-        return [("+", part.plus), ("-", part.minus), ("out", part.out)]
-    names = ("1", "2") if len(part.nodes) == 2 else tuple(str(i + 1) for i in range(len(part.nodes)))
-    return list(zip(names, part.nodes))
-
-
-def connection_lines(circuit) -> list[str]:
-    """Which parts and pins meet at each node (the quickest way to spot a wiring typo).
-
-    A node with a single connection is flagged: nothing else is wired to it.
-    """
-    at: dict[str, list[str]] = {n: [] for n in circuit.nodes}
-    for p in circuit.parts:
-        for pin, node in pins(p):
-            at.setdefault(node, []).append(f"{p.id}.{pin}")
-    width = max((len(n) for n in at), default=1)
-    out = []
-    for node, conns in at.items():
-        flag = "   ! only one connection" if len(conns) == 1 else ""
-        out.append(f"  {node.ljust(width)}  {', '.join(conns)}{flag}")
-    return out
-
-
 # --- the circuit pane ---------------------------------------------------------------------------
 def warning_lines(warnings) -> list[str]:
     return [f"! {getattr(w, 'message', w)}" for w in warnings]
 
 
-def circuit_lines(circuit, values: dict, warnings=()) -> list[str]:
+def circuit_lines(circuit, values: dict, warnings=(), width: int = 78) -> list[str]:
     """The circuit overview: title, warnings, nodes with what meets there, parts, parameters, [find]."""
     c = circuit
     out = [c.title or "(untitled circuit)", f"file: {c.path or '-'}", ""]
@@ -100,10 +76,11 @@ def circuit_lines(circuit, values: dict, warnings=()) -> list[str]:
         out += warning_lines(warnings) + [""]
     roles = node_roles(c)
     out.append(f"Reference node: {c.reference} (0 V)")
-    out.append("Nodes and what meets there (part.pin; pins 1 and 2 in file order):")
-    conns = connection_lines(c)
-    for line, n in zip(conns, list(roles) + [None] * len(conns)):
-        out.append(line + (f"  ({roles[n]})" if n in roles and roles[n] else ""))
+    out.append("Nodes: what meets at each (part.pin):")
+    out += connection_lines(c, width)
+    roles_text = [f"{n} ({r})" for n, r in roles.items() if r]
+    if roles_text:
+        out.append("  roles: " + "; ".join(roles_text))
     out.append("")
     out.append("Parts (id, kind, nodes, value):")
     wid = max((len(p.id) for p in c.parts), default=2)
@@ -147,13 +124,9 @@ def step_text(step) -> str:
 
 
 def pretty(expr, width: int) -> str | None:
-    """SymPy's 2-D form of ``expr`` when every line fits ``width`` columns, else None."""
-    import sympy
-    try:
-        text = sympy.pretty(expr, use_unicode=True, wrap_line=False)
-    except Exception:  # noqa: BLE001 - the 2-D form is optional decoration; the caller keeps one line
-        return None
-    return text if max((len(ln) for ln in text.splitlines()), default=0) <= width else None
+    """The 2-D form of ``expr`` (names as written) when every line fits ``width`` columns, else None."""
+    from nodeterm.present.format import pretty_text
+    return pretty_text(expr, width)
 
 
 @lru_cache(maxsize=4096)
@@ -284,12 +257,24 @@ def wrap_value(text: str, width: int, indent: int = 6) -> str:
     return "\n".join(lines)
 
 
-def _value(expr, unit: str, two_d: bool, width: int, lead: int, pretty) -> str:
+def _value(expr, unit, two_d: bool, width: int, lead: int, pretty) -> str:
+    tag = not isinstance(unit, str)  # a [find] quantity's unit follows a symbolic result too
     if two_d and pretty is not None and not getattr(expr, "is_large", False):  # never 2-D for a huge one
         text = pretty(expr, width)
         if text is not None and "\n" in text:
-            return "\n" + "\n".join("      " + ln for ln in text.splitlines())
-    return wrap_value(" " * lead + value_text(expr, unit), width)[lead:]
+            lines = ["      " + ln for ln in text.splitlines()]
+            one, full = expr_text(expr), value_text(expr, unit, tag=tag)
+            if full.startswith(one) and full[len(one):].strip():  # the value with its unit, DC value
+                lines.append("      " + full[len(one):].strip())
+            return "\n" + "\n".join(lines)
+    return value_text(expr, unit, tag=tag)
+
+
+def _line(head: str, value: str, tail: str, width: int) -> str:
+    """``head value tail`` wrapped to ``width`` (a 2-D value, already on lines of its own, is kept)."""
+    if value.startswith("\n"):
+        return head + value + tail
+    return wrap_value(head + value + tail, width)
 
 
 def result_lines(system, solution, two_d: bool = False, width: int = 78, pretty=None) -> list[str]:
@@ -308,7 +293,7 @@ def result_lines(system, solution, two_d: bool = False, width: int = 78, pretty=
     for n, v in solution.node_voltages.items():
         tag = "  (reference)" if n == c.reference else ""
         head = f"  V_{n} = "
-        out.append(head + _value(v, "V", two_d, width, len(head), pretty) + tag)
+        out.append(_line(head, _value(v, "V", two_d, width, len(head), pretty), tag, width))
     for group in ("opamp", "source", "part"):
         parts = [p for p in c.parts if part_group(p) == group]
         if not parts:
@@ -317,12 +302,19 @@ def result_lines(system, solution, two_d: bool = False, width: int = 78, pretty=
         for p in parts:
             where = f"   [{p.kind} {part_nodes(p)}]" if group != "opamp" else f"   [into node {p.out}]"
             head = f"  I_{p.id} = "
-            out.append(head + _value(solution.currents[p.id], "A", two_d, width, len(head), pretty) + where)
+            out.append(_line(head, _value(solution.currents[p.id], "A", two_d, width, len(head), pretty), where,
+                             width))
     if solution.find:
+        from nodeterm.present.dimensions import find_units
+        from nodeterm.present.normal_form import normal_form_lines, normal_forms
+        units, forms = find_units(c), normal_forms(solution, c)
         out += ["", "Asked quantities [find]"]
         for name, v in solution.find.items():
             head = f"  {name} = "
-            out.append(head + _value(v, "", two_d, width, len(head), pretty) + f"   ({c.find[name].text})")
+            out.append(_line(head, _value(v, units[name], two_d, width, len(head), pretty),
+                             f"   ({c.find[name].text})", width))
+            if name in forms:
+                out += normal_form_lines(forms[name], units[name], "      ")
     if solution.is_reactive:
         out += ["", "Results depend on s (Laplace variable): they are transfer functions / impedances."]
     return out
