@@ -139,8 +139,9 @@ def parse_value(circuit, name: str, raw, source: str | None = None) -> sympy.Exp
     source = source or circuit.path
     if name not in params:
         near = did_you_mean(name, params)
-        raise InputError(f"no parameter {name!r} in the circuit" + (f"; {near}" if near else ""),
-                         hint="parameters: " + (", ".join(params) or "(none)"), file=source)
+        raise InputError(f"no parameter {name!r} in the circuit",
+                         hint=(f"{near} " if near else "") + "parameters: " + (", ".join(params) or "(none)"),
+                         file=source)
     if isinstance(raw, sympy.Basic):
         value = as_expr(raw)  # already a SymPy object, never text
     elif isinstance(raw, bool):

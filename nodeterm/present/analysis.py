@@ -304,7 +304,10 @@ def compliance_lines(comp, unit: str = "ohm", ascii_only: bool = False) -> list[
 def sensitivity_lines(sens, ascii_only: bool = False) -> list[str]:
     """Ranked normalized sensitivities, grouped by quantity."""
     if not sens:
-        return ["No quantity depends on a parameter."]
+        return ["No scalar quantity (a result without s, or the DC gain, corner, w0 or Q of a transfer function)",
+                "depends on a parameter. Sections (corners, w0, Q) are read only from transfer functions small",
+                "enough to factor exactly; with a large symbolic one, substitute values for the parts not",
+                "studied (--set NAME=VALUE) so that the rest stay symbolic."]
     out = ["Normalized sensitivity S = (dF/dx)*(x/F): a 1 % change of x changes F by about S %"]
     current = None
     for r in sens:
