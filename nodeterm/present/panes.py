@@ -16,6 +16,7 @@ from nodeterm.present.format import equation_text, expr_text, value_text
 
 MARK = "▶"       # marks the selected item (a textual marker, legible without colour)
 TIED = "*"       # marks items tied to the selection
+CHANGED = "~"    # marks equations the last reload changed (the diff view, key d)
 SOURCE_KINDS = ("voltage_source", "current_source", "vcvs", "vccs", "ccvs", "cccs")
 TERMS_KINDS = ("kcl", "supernode_kcl")
 

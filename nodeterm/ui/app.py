@@ -34,7 +34,7 @@ from nodeterm.ui import solver_process, threads
 from nodeterm.ui.analysis_pane import AnalysisPane
 from nodeterm.ui.circuit_pane import CircuitPane
 from nodeterm.ui.claims_pane import ClaimsPane
-from nodeterm.ui.dialogs import ConfirmScreen, ExportScreen, HelpScreen, PathScreen, ValueScreen
+from nodeterm.ui.dialogs import DiffScreen, ConfirmScreen, ExportScreen, HelpScreen, PathScreen, ValueScreen
 from nodeterm.ui.keys import KEYS, help_text
 from nodeterm.ui.matrix_pane import MatrixPane
 from nodeterm.ui.results_pane import ResultsPane
@@ -206,6 +206,7 @@ class Workbench(App):
     @guarded
     def reload(self) -> None:
         """Load the file again; a file that no longer loads keeps the last good state on screen."""
+        previous = self.entry.study if self.entry is not None else None
         try:
             dropped = self.session.reload()
         except InputError as err:
@@ -217,6 +218,39 @@ class Workbench(App):
         self.show_entry()
         note = f"reloaded {os.path.basename(self.session.path)}"
         self.notify("; ".join([note] + dropped), severity="warning" if dropped else "information")
+        if previous is not None and self.entry is not None:
+            self.compare_with(previous, self.entry.study)
+
+    def compare_with(self, previous, study) -> None:
+        """Work out what changed between the previous good state and ``study`` (key d shows it)."""
+        self.last_diff = None
+        self.query_one(StepsPane).mark_changed(())
+        self.run_worker(partial(self._diff_work, previous, study), thread=True, group="diff", exclusive=True,
+                        description="what the reload changed")
+
+    def _diff_work(self, previous, study) -> None:
+        from nodeterm.engine.review.diff import diff_studies
+        try:
+            diff = diff_studies(previous.with_choice(previous.choice), study.with_choice(study.choice),
+                                "previous version", "now")
+        except Exception as exc:  # noqa: BLE001 - the diff is a help; the reload itself succeeded
+            self.call_from_thread(self.notify, f"could not compare with the previous version: {describe(exc)}",
+                                  severity="warning")
+            return
+        self.call_from_thread(self._diff_ready, diff)
+
+    def _diff_ready(self, diff) -> None:
+        self.last_diff = diff
+        self.query_one(StepsPane).mark_changed(diff.changed_labels)
+        what = "nothing in the equations or results" if diff.is_empty else "changes marked ~ in the steps"
+        self.notify(f"compared with the previous version: {what}; d shows the diff")
+
+    @guarded
+    def action_show_diff(self) -> None:
+        """Show the diff of the last reload against the previous good version."""
+        from nodeterm.present.diff import diff_pane_text
+        width = max(40, self.size.width - 6)
+        self.push_screen(DiffScreen(diff_pane_text(getattr(self, "last_diff", None), width)))
 
     @guarded
     def poll_file(self) -> None:

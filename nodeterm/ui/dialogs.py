@@ -26,6 +26,23 @@ class HelpScreen(ModalScreen[None]):
         self.dismiss(None)
 
 
+class DiffScreen(ModalScreen[None]):
+    """What the last reload of the file changed, in circuit terms (d or Esc closes)."""
+
+    BINDINGS = [Binding("escape,q,d", "dismiss", "Close")]
+
+    def __init__(self, text: str) -> None:
+        super().__init__()
+        self.text = text
+
+    def compose(self):
+        with VerticalScroll(id="help-box"):
+            yield Static(self.text, id="diff-text", markup=False)
+
+    def action_dismiss(self, result=None) -> None:  # noqa: D102
+        self.dismiss(None)
+
+
 class ValueScreen(ModalScreen[None]):
     """Type a value for a parameter. The name beside the box is the one the value goes to; Up/Down
     choose another parameter without leaving the box. Enter applies (a bad value is explained here

@@ -43,6 +43,7 @@ KEYS: tuple[Key, ...] = (
     Key("o", "open_file", "Open another circuit file"),
     Key("r", "reload", "Reload the circuit file from disk"),
     Key("e", "export", "Export the equation set to a file", "export"),
+    Key("d", "show_diff", "Show what the last reload changed (against the previous good version)"),
     Key("escape", "leave", "Leave a text box (back to the keys above)"),
     Key("q,ctrl+q", "quit", "Quit (asks first if a typed value would be lost)", "quit"),
 )

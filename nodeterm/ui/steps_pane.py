@@ -45,6 +45,7 @@ class StepsPane(Vertical):
         self.two_d = False
         self.selected_eq: int | None = None
         self.selected_part: str | None = None
+        self.changed_labels: frozenset = frozenset()  # equations the last reload changed, marked CHANGED
         self._eq_prompts: list[str] = []
         self._part_prompts: list[str] = []
 
@@ -118,6 +119,11 @@ class StepsPane(Vertical):
         self._fill_equations()
         self.post_message(self.StepChanged(self.index, total))
 
+    def mark_changed(self, labels) -> None:
+        """Mark the equations the last reload changed (labels of the new circuit's equations)."""
+        self.changed_labels = frozenset(labels)
+        self._fill_equations()
+
     def _fill_equations(self) -> None:
         step = self.step
         prompts = [self._eq_prompt(i) for i in range(len(step.equations))] if step is not None else []
@@ -138,7 +144,8 @@ class StepsPane(Vertical):
     def _eq_prompt(self, i: int) -> str:
         eq = self.step.equations[i]
         holds = self.selected_part is not None and self.selected_part in panes.equation_parts(eq)
-        mark = panes.MARK if i == self.selected_eq else (panes.TIED if holds else " ")
+        changed = eq.label in self.changed_labels
+        mark = panes.MARK if i == self.selected_eq else (panes.TIED if holds else (panes.CHANGED if changed else " "))
         width = max(20, self.query_one("#equation-list").size.width - 8)
         body = panes.equation_body(eq, self.two_d, width)
         return panes.equation_prompt(eq, mark, self.selected_part, body)
