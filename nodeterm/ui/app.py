@@ -242,7 +242,12 @@ class Workbench(App):
     def _diff_ready(self, diff) -> None:
         self.last_diff = diff
         self.query_one(StepsPane).mark_changed(diff.changed_labels)
-        what = "nothing in the equations or results" if diff.is_empty else "changes marked ~ in the steps"
+        if diff.is_empty:
+            what = "nothing changed in the circuit's terms"
+        elif diff.changed_labels:
+            what = "changed equations marked ~ in the steps"
+        else:
+            what = "changes found, no equation changed"
         self.notify(f"compared with the previous version: {what}; d shows the diff")
 
     @guarded
