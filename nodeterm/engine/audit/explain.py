@@ -36,7 +36,7 @@ import numpy as np
 import sympy
 
 from nodeterm.engine.audit.claim_forms import _t
-from nodeterm.engine.symbols import I, V
+from nodeterm.engine.symbols import I, V, as_expr
 
 _TOL = 1e-9
 
@@ -117,7 +117,7 @@ class _Point:
 
 def _vector(expr, point: _Point, index: dict) -> np.ndarray | None:
     """The linear form of ``expr`` at ``point`` as a float vector over ``index`` (None: not linear)."""
-    e = sympy.expand(sympy.sympify(expr).xreplace(point.values))
+    e = sympy.expand(as_expr(expr).xreplace(point.values))
     out = np.zeros(len(index))
     for term, coeff in e.as_coefficients_dict().items():
         key = 1 if term == 1 else term
@@ -149,7 +149,7 @@ class KclExplainer:
         self.coords = self.xs + branch_currents
         self.index = {x: i for i, x in enumerate(self.coords)}
         self.index[1] = len(self.coords)
-        self.elim = {k: sympy.sympify(v).xreplace(pvals) for k, v in system.eliminated.items()}
+        self.elim = {k: as_expr(v).xreplace(pvals) for k, v in system.eliminated.items()}
         self.params = sorted({sympy.Symbol(n) for n in c.parameters} - set(pvals), key=str)
         syms = set(self.params) | {sympy.Symbol("s")}
         self.points = [_Point(sorted(syms, key=str), seed) for seed in (20231, 77317)]
@@ -206,7 +206,7 @@ class KclExplainer:
             k = (cf, i)
             v = self._nums.get(k)
             if v is None:
-                v = self._nums[k] = float(sympy.sympify(cf).xreplace(self.points[i].values))
+                v = self._nums[k] = float(as_expr(cf).xreplace(self.points[i].values))
             out[self.index[x]] += v
         return out
 
@@ -260,7 +260,7 @@ class KclExplainer:
                         f"the term from {part} uses {used} where V_{y} belongs: {part} joins {joins}",
                         f"write {leave}"), part))
             p = f.parts.get(part)
-            free = set().union(*(sympy.sympify(cf).free_symbols for cf in F.values())) if F else set()
+            free = set().union(*(as_expr(cf).free_symbols for cf in F.values())) if F else set()
             for v in sorted(free & set(self.params), key=str):
                 for w in self.params:
                     if w == v:
@@ -271,7 +271,7 @@ class KclExplainer:
                         f"write {leave}"), part))
             g = _gain_of(p) if p is not None and p.kind in ("cccs", "vccs") else None
             if g is not None and g != 0:
-                g = sympy.sympify(g).xreplace(self.pvals)
+                g = as_expr(g).xreplace(self.pvals)
                 for wrong_g, words in ((g + 1, f"1 + {_t(g)}"), (g - 1, f"{_t(g)} - 1")):
                     muts.append(_Mutation(2, scaled(F, wrong_g / g - 1), Finding(
                         "dependent-factor", node, (part,),

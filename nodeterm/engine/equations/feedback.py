@@ -47,6 +47,7 @@ from dataclasses import dataclass
 import numpy as np
 import sympy
 
+from nodeterm.engine.symbols import as_expr
 from nodeterm.engine.errors import Warning
 from nodeterm.engine.symbols import param, s
 
@@ -90,7 +91,7 @@ def _numeric_values(circuit, values: dict | None, rng) -> list[dict]:
     """Parameter sets with every parameter a float: file values (overridden by ``values``), draws for the rest."""
     resolved = dict(circuit.known_values())
     if values:
-        resolved.update({k: sympy.sympify(v, strict=True) for k, v in values.items()})
+        resolved.update({k: as_expr(v) for k, v in values.items()})
     names = list(circuit.parameters)
     # only the values in the matrix matter: independent sources are set to zero
     used = set()
@@ -165,7 +166,7 @@ def _matrices(model, sigmas: list[float], subs: dict) -> np.ndarray:
     for k, c in enumerate(model.coefficients):
         if k not in in_matrix:
             continue
-        e = sympy.sympify(c, strict=True).xreplace(subs)
+        e = as_expr(c).xreplace(subs)
         if e.free_symbols - {s}:
             raise ValueError("a coefficient has no value")
         if e.has(s):

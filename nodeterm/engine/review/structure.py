@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import sympy
 
+from nodeterm.engine.symbols import as_expr
 from nodeterm.engine.circuit.model import Circuit
 from nodeterm.engine.circuit.parts import OpAmp, Part
 from nodeterm.engine.equations.equation import KCL_KINDS, Equation, Term, _label
@@ -40,7 +41,7 @@ def same_expr(a, b) -> bool:
     if a == b:
         return True
     try:
-        a, b = sympy.sympify(a, strict=True), sympy.sympify(b, strict=True)
+        a, b = as_expr(a), as_expr(b)
     except (sympy.SympifyError, TypeError):
         return False
     if sympy.count_ops(a) + sympy.count_ops(b) > SIMPLIFY_LIMIT:
@@ -197,7 +198,7 @@ def translate(e: Equation, nodes: dict, parts: dict) -> Equation:
 
 def _voltages(expr) -> dict:
     """Coefficient of each node voltage or current unknown in a (linear) term."""
-    expr = sympy.sympify(expr, strict=True)
+    expr = as_expr(expr)
     out = {}
     for sym in sorted(expr.free_symbols, key=str):
         if sym.name.startswith(("V_", "I_")):
@@ -218,7 +219,7 @@ def explain_term(old, new, node: str = "") -> str:
     >>> explain_term((a - b)/R, (a - c)/R)
     'V_c in place of V_b'
     """
-    if same_expr(sympy.sympify(old, strict=True) + sympy.sympify(new, strict=True), 0):
+    if same_expr(as_expr(old) + as_expr(new), 0):
         return "sign flipped"
     co_old, co_new = _voltages(old), _voltages(new)
     gone = [str(v) for v in co_old if v not in co_new]
@@ -233,8 +234,8 @@ def explain_term(old, new, node: str = "") -> str:
         own = V(node) if node and V(node) in co_old else next(iter(co_old))
         a, b = co_old[own], co_new[own]
         if same_expr(a, b):
-            rest_old = sympy.sympify(old, strict=True).xreplace({v: 0 for v in co_old})
-            rest_new = sympy.sympify(new, strict=True).xreplace({v: 0 for v in co_new})
+            rest_old = as_expr(old).xreplace({v: 0 for v in co_old})
+            rest_new = as_expr(new).xreplace({v: 0 for v in co_new})
             return f"constant part {sympy.sstr(rest_old)} -> {sympy.sstr(rest_new)}"
         return f"coefficient of {own} {sympy.sstr(a)} -> {sympy.sstr(b)}"
     return f"{sympy.sstr(old)} -> {sympy.sstr(new)}"
