@@ -29,9 +29,9 @@ def cmd_solve(args) -> int:
         return _solve_numeric(args)
     study = study_from(args)
     if args.json:
-        from nodeterm.present.jsonout import to_json
+        from nodeterm.present.jsonout import write_json
         records = study.records(JSON_RECORDS, budgets=JSON_BUDGETS)
-        print(to_json(records))
+        write_json(records, sys.stdout)
     else:
         from nodeterm.present.text import report
         records = study.records(SOLVE_RECORDS)

@@ -293,15 +293,23 @@ def result_units(circuit) -> tuple[Unit, Unit, dict[str, Unit]]:
 
 def results_dict(circuit, solution) -> dict:
     """The additive JSON keys ``units`` and ``formatted``: each result's unit, and its text as the
-    reports print it (exact, then the value with SI prefix and unit: ``61/12500000 (≈ 4.88 µA)``)."""
+    reports print it (exact, then the value with SI prefix and unit: ``61/12500000 (≈ 4.88 µA)``).
+
+    A large symbolic result (kept as polynomials, printed expanded) has no number to add, so its
+    formatted text would repeat its exact field: it is left out of ``formatted`` (a 12-section
+    symbolic ladder's JSON would otherwise double, to 237 MB)."""
     from nodeterm.present.format import value_text
     volt, amp, finds = result_units(circuit)
+
+    def shown(results: dict) -> dict:  # a large result's text is its exact field: not written twice
+        return {n: v for n, v in results.items() if not getattr(v, "is_large", False)}
+
     return {
         "units": {"node_voltages": volt.symbol, "currents": amp.symbol,
                   "find": {n: finds[n].symbol for n in solution.find if n in finds}},
         "formatted": {
-            "node_voltages": {n: value_text(v, volt) for n, v in solution.node_voltages.items()},
-            "currents": {n: value_text(v, amp) for n, v in solution.currents.items()},
-            "find": {n: value_text(v, finds.get(n, PLAIN), tag=True) for n, v in solution.find.items()},
+            "node_voltages": {n: value_text(v, volt) for n, v in shown(solution.node_voltages).items()},
+            "currents": {n: value_text(v, amp) for n, v in shown(solution.currents).items()},
+            "find": {n: value_text(v, finds.get(n, PLAIN), tag=True) for n, v in shown(solution.find).items()},
         },
     }

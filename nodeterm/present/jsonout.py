@@ -76,6 +76,16 @@ def to_json(records, numeric: bool = False) -> str:
     return json.dumps(solution_dict(records, numeric), indent=2, ensure_ascii=False)
 
 
+def write_json(records, stream, numeric: bool = False) -> None:
+    """:func:`to_json` written to ``stream`` piece by piece, with a final newline.
+
+    A big symbolic circuit's JSON is over 100 MB; writing it in pieces never holds the whole
+    text (nor its encoded copy) in memory at once.
+    """
+    json.dump(solution_dict(records, numeric), stream, indent=2, ensure_ascii=False)
+    stream.write("\n")
+
+
 # --- steps and audit verdicts (nodeterm check --json, nodeterm export --to json) -----------------
 def _plain(value):
     """Step data as JSON-ready values (expressions as SymPy-syntax strings)."""

@@ -199,3 +199,24 @@ def test_real_model_comparison_shows_units():
     c = load_circuit(str(ROOT / "tests" / "analysis" / "noninverting_gbw.toml"))
     lines = comparison_lines(Study(c).comparison(None), units=find_units(c))
     assert "  at DC: ideal 10, real 1000000/100001 (≈ 10 V/V)" in lines
+
+
+def test_json_formatted_leaves_out_large_symbolic_results_and_keeps_small_ones():
+    # A large symbolic result has no number to add: its formatted text would repeat the exact
+    # field (docs/json-contract.md, `formatted`). Small and numeric results keep theirs.
+    import json
+    from nodeterm.engine.study import Study
+    from nodeterm.present.jsonout import to_json
+    lines = ['[parameters]', 'Vin = ""'] + [f'R{k} = ""\nC{k} = ""' for k in range(1, 6)]
+    lines += ['[parts]', 'VS = { kind = "voltage_source", nodes = ["n0", "gnd"], value = "Vin" }']
+    for k in range(1, 6):
+        lines.append(f'RS{k} = {{ kind = "resistor", nodes = ["n{k - 1}", "n{k}"], value = "R{k}" }}')
+        lines.append(f'CS{k} = {{ kind = "capacitor", nodes = ["n{k}", "gnd"], value = "C{k}" }}')
+    study = Study(parse_circuit("\n".join(lines) + "\n"))
+    data = json.loads(to_json(study.records(("system", "matrix", "solution", "warnings"))))
+    large = {n for n, v in study.solution.node_voltages.items() if getattr(v, "is_large", False)}
+    assert large  # the 5-section ladder's node voltages are large (89-term denominator)
+    assert set(data["node_voltages"]) - set(data["formatted"]["node_voltages"]) == large
+    assert data["formatted"]["node_voltages"]["n0"] == data["node_voltages"]["n0"]
+    for node in large:
+        assert sympy.sympify(data["node_voltages"][node]) == sympy.sympify(study.solution.node_voltages[node].text)

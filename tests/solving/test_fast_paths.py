@@ -235,3 +235,43 @@ U1 = { kind = "opamp", plus = "gnd", minus = "m", out = "out" }
         single = model.__class__(circuit, {"Ra": sympy.Float(samples["Ra"][i]),
                                            "Rf": sympy.Float(samples["Rf"][i])}).solve()
         assert out[i, col] == pytest.approx(single.node_voltages["out"].real, rel=1e-12)
+
+
+def _random_poly(F, rng, names, terms, degree=2):
+    """A random integer polynomial in the generators ``names`` of ``F`` (invented test data)."""
+    gens = {n: F.gens[F.names.index(n)] for n in names}
+    p = F.zero
+    for _ in range(terms):
+        m = F.ctx.constant(rng.randint(-9, 9) or 1)
+        for n in rng.sample(names, rng.randint(1, len(names))):
+            m = m * gens[n] ** rng.randint(1, degree)
+        p = p + m
+    return p
+
+
+@pytest.mark.parametrize("seed", range(12))
+def test_reduction_against_a_known_factor_equals_the_plain_gcd(seed):
+    # Lowest terms of num/(f*rest), with f a known factor (the system's determinant), by the
+    # content argument in PolyField._reduce_coprime_known, against FLINT's own GCD (the
+    # reference: the general-purpose algorithm) on random polynomials with shared factors.
+    import random
+    rng = random.Random(seed)
+    syms = sympy.symbols("a b c d e")
+    F = fastsolve.PolyField(set(syms))
+    names = [str(x) for x in syms]
+    missing = rng.choice(names)  # a variable of f that the numerator lacks
+    others = [n for n in names if n != missing]
+    common = _random_poly(F, rng, rng.sample(others, 2), 2)
+    f = _random_poly(F, rng, names, 40) * common * F.gens[F.names.index(rng.choice(names))]
+    F.known_factors.append(f)
+    num = _random_poly(F, rng, rng.sample(others, 3), 6) * (common if seed % 2 else F.one)
+    rest = F.one if seed % 3 == 0 else _random_poly(F, rng, names[:2], 2)
+    den = f * rest
+    got = F._reduce_coprime_known(num, den)
+    assert got is not None
+    g = num.gcd(den)
+    want = (num / g, den / g)
+    # equal as fractions and both in lowest terms (equal up to the sign of the pair)
+    assert got[0] * want[1] == got[1] * want[0]
+    assert got[0].gcd(got[1]).is_one() or got[0].gcd(got[1]) == -F.one
+    assert len(got[1]) == len(want[1])

@@ -122,6 +122,8 @@ class PolyField:
         self.known_factors: list = []
         self._factors: dict = {}
         self._slow_gcds = 0
+        self._contents: dict = {}
+        self._quotients: dict = {}
         """Large polynomials that many denominators share (the system's determinant): see :meth:`add`."""
 
     def __reduce__(self):
@@ -197,6 +199,64 @@ class PolyField:
                 num, small = num / g, small / g
             return num, left * small
         return None
+
+    def _reduce_coprime_known(self, num, den):
+        """``num/den`` in lowest terms when ``den`` is a known factor ``f`` (times a rest) and a cheap
+        argument shows ``gcd(num, f) = 1``; else None.
+
+        The argument: if ``num`` does not contain a variable x that ``f`` contains, every common
+        factor of the two is free of x, so it divides the content of ``f`` in x (the GCD of
+        ``f``'s coefficients as a polynomial in x). Hence ``gcd(num, f) = gcd(num, content_x(f))``,
+        and that content is computed once per factor and variable (for a ladder's determinant a
+        single monomial). With ``g = gcd(num, f)``, ``gcd(num, f*rest) = g*gcd(num/g, rest)``, and
+        ``rest`` is small. A GCD against the whole 75,025-term determinant of a 12-section ladder costs 30 ms
+        even for a two-term numerator; this costs well under a millisecond.
+        """
+        for f in self.known_factors:
+            if den == f:
+                rest = None
+            elif len(den) >= len(f):
+                try:
+                    rest = den / f
+                except FlintError:
+                    continue
+            else:
+                continue
+            g = self._gcd_by_content(num, f)
+            if g is None:
+                return None
+            if not g.is_one():  # f/g is the same for many results: divided once
+                key = (id(f), str(g))
+                if key not in self._quotients:
+                    self._quotients[key] = f / g
+                num, f = num / g, self._quotients[key]
+            if rest is None:
+                return num, f
+            # num = g*n', f = g*f' with n', f' coprime: gcd(num, f*rest) = g*gcd(n', rest)
+            g = num.gcd(rest)
+            if not g.is_one():
+                num, rest = num / g, rest / g
+            return num, (f if rest.is_one() else f * rest)
+        return None
+
+    def _gcd_by_content(self, num, f):
+        """``gcd(num, f)`` through ``f``'s content in a variable that ``num`` lacks, or None."""
+        fdeg, ndeg = f.degrees(), num.degrees()
+        free = [i for i, (a, b) in enumerate(zip(fdeg, ndeg)) if a > 0 and b == 0]
+        if not free:
+            return None
+        known = self._contents.setdefault(id(f), (f, {}))[1]  # f kept alive: its id stays its own
+        i = next((i for i in free if i in known), None)
+        if i is None:
+            i = min(free, key=lambda j: fdeg[j])
+            content = None
+            for _, q in self._groups(f, i):
+                content = q if content is None else content.gcd(q)
+                if content.is_one():
+                    break
+            known[i] = content
+        content = known[i]
+        return self.one if content.is_one() else num.gcd(content)
 
     def _known_common(self, ad, bd):
         """``(ad/g, bd/g)`` for ``g = gcd(ad, bd)`` when both are multiples of a known factor, else None.
@@ -282,7 +342,9 @@ class PolyField:
         if num.is_zero():
             return self.zero, self.one
         if not den.is_one():
-            split = self._reduce_by_known(num, den) if self._slow_gcds >= SLOW_GCDS else None
+            split = self._reduce_coprime_known(num, den)
+            if split is None and self._slow_gcds >= SLOW_GCDS:
+                split = self._reduce_by_known(num, den)
             if split is not None:
                 num, den = split
             else:
@@ -308,7 +370,10 @@ class PolyField:
 
     def _s_groups(self, p) -> list[tuple[int, object]]:
         """[(k, coefficient of s**k)] with the coefficients split off inside FLINT, k ascending."""
-        si = self.s_index
+        return self._groups(p, self.s_index)
+
+    def _groups(self, p, si) -> list[tuple[int, object]]:
+        """[(k, coefficient of x**k)] for the generator of index ``si``, k ascending."""
         if si is None or p.degrees()[si] == 0:
             return [(0, p)]
         name, sgen = self.names[si], self.gens[si]
@@ -505,6 +570,8 @@ def _field_from_state(symbols, names, atoms) -> PolyField:
     field.one, field.zero = field.ctx.constant(1), field.ctx.constant(0)
     field.s_index = field.index.get(s)
     field._text_cache = []
+    field.known_factors, field._factors, field._slow_gcds = [], {}, 0
+    field._contents, field._quotients = {}, {}
     return field
 
 
