@@ -249,7 +249,11 @@ class _Loader:
         if not isinstance(raw, str):
             return
         dims = getattr(self, "param_dims", {})
-        dim = self.dimension_of(raw, dims, table="parts", key=pid, field=field, what=f"part {pid} {key}")
+        cache = self.__dict__.setdefault("_part_dims", {})  # parts share values: each text walked once
+        dim = cache.get(raw)
+        if dim is None:
+            dim = self.dimension_of(raw, dims, table="parts", key=pid, field=field, what=f"part {pid} {key}")
+            cache[raw] = dim
         wrong = mismatch(kind, key, dim)
         if wrong:
             line = self.where.key("parts", pid)
