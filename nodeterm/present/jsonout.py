@@ -8,6 +8,8 @@ analyses run (the command picks the records). No Textual.
 from __future__ import annotations
 
 import json
+import re
+import uuid
 
 import sympy
 
@@ -76,13 +78,42 @@ def to_json(records, numeric: bool = False) -> str:
     return json.dumps(solution_dict(records, numeric), indent=2, ensure_ascii=False)
 
 
-def write_json(records, stream, numeric: bool = False) -> None:
-    """:func:`to_json` written to ``stream`` piece by piece, with a final newline.
+RAW_STRING_CHARS = 100_000
+"""Strings longer than this that need no escaping are written as they are (see :func:`write_json`)."""
 
-    A big symbolic circuit's JSON is over 100 MB; writing it in pieces never holds the whole
-    text (nor its encoded copy) in memory at once.
+
+def write_json(records, stream, numeric: bool = False) -> None:
+    """:func:`to_json` written to ``stream``, with a final newline (the same text).
+
+    A big symbolic circuit's JSON is over 100 MB, nearly all of it a few dozen long expressions.
+    The encoder copies each string while looking for characters to escape; an expression is plain
+    ASCII, so each long string that has no quote, backslash or control character is replaced by a
+    marker, the rest is encoded, and the long strings are written between the pieces as they are.
     """
-    json.dump(solution_dict(records, numeric), stream, indent=2, ensure_ascii=False)
+    data = solution_dict(records, numeric)
+    tag = f"@large-{uuid.uuid4().hex}-"
+    long: list[str] = []
+
+    def swap(value):
+        if isinstance(value, dict):
+            return {k: swap(v) for k, v in value.items()}
+        if isinstance(value, list):
+            return [swap(v) for v in value]
+        if (isinstance(value, str) and len(value) > RAW_STRING_CHARS and value.isascii()
+                and value.isprintable() and '"' not in value and "\\" not in value):
+            long.append(value)
+            return f"{tag}{len(long) - 1}"
+        return value
+
+    text = json.dumps(swap(data), indent=2, ensure_ascii=False)
+    pieces = re.split(f'"{re.escape(tag)}(\\d+)"', text)
+    for i, piece in enumerate(pieces):
+        if i % 2:
+            stream.write('"')
+            stream.write(long[int(piece)])
+            stream.write('"')
+        else:
+            stream.write(piece)
     stream.write("\n")
 
 

@@ -220,3 +220,39 @@ def test_json_formatted_leaves_out_large_symbolic_results_and_keeps_small_ones()
     assert data["formatted"]["node_voltages"]["n0"] == data["node_voltages"]["n0"]
     for node in large:
         assert sympy.sympify(data["node_voltages"][node]) == sympy.sympify(study.solution.node_voltages[node].text)
+
+
+def test_streamed_json_with_long_strings_written_raw_is_the_same_text(monkeypatch):
+    # write_json writes long expressions between the encoded pieces as they are; the text must
+    # be exactly what the standard library's encoder gives (json.dumps, the reference), including
+    # strings that need escaping (a quote and non-ASCII in the title) which stay encoded.
+    import io
+    from nodeterm.engine.study import Study
+    from nodeterm.present import jsonout
+    text = 'title = "Kiln \\"hot\\" leg, 1 µA"\n' + LADDER_3
+    records = Study(parse_circuit(text)).records(("system", "matrix", "solution", "warnings", "transfer"))
+    monkeypatch.setattr(jsonout, "RAW_STRING_CHARS", 5)  # every string longer than 5 goes the raw way
+    out = io.StringIO()
+    jsonout.write_json(records, out)
+    assert out.getvalue() == jsonout.to_json(records) + "\n"
+
+
+LADDER_3 = """[parameters]
+Vin = ""
+R1 = ""
+R2 = ""
+R3 = ""
+C1 = ""
+C2 = ""
+C3 = ""
+[parts]
+VS = { kind = "voltage_source", nodes = ["n0", "gnd"], value = "Vin" }
+RS1 = { kind = "resistor", nodes = ["n0", "n1"], value = "R1" }
+CS1 = { kind = "capacitor", nodes = ["n1", "gnd"], value = "C1" }
+RS2 = { kind = "resistor", nodes = ["n1", "n2"], value = "R2" }
+CS2 = { kind = "capacitor", nodes = ["n2", "gnd"], value = "C2" }
+RS3 = { kind = "resistor", nodes = ["n2", "n3"], value = "R3" }
+CS3 = { kind = "capacitor", nodes = ["n3", "gnd"], value = "C3" }
+[find]
+H = "V_n3/Vin"
+"""

@@ -432,12 +432,19 @@ class PolyField:
         The coefficient of each power of s is split off inside FLINT (evaluate at s = 0, subtract,
         divide by s), so even a polynomial of 100,000 terms is printed at C speed.
         """
-        for q, text in self._text_cache:  # results share their denominator: print it once
+        cache = self._text_cache  # results share their denominator: print it once
+        for i, (q, text) in enumerate(cache):
             if q == p:
+                cache.append(cache.pop(i))  # most recently used last: a shared denominator stays
                 return text
+        if len(p) > 1000:  # a coefficient of s of a polynomial printed before (a transfer function's)
+            groups = self.__dict__.setdefault("_group_texts", {})
+            for q, text in groups.get(len(p), ()):
+                if q == p:
+                    return text
         text = self._poly_text(p)
         if len(p) > 1000:
-            self._text_cache = (self._text_cache + [(p, text)])[-4:]
+            self._text_cache = (cache + [(p, text)])[-4:]
         return text
 
     def _poly_text(self, p) -> str:
@@ -446,8 +453,11 @@ class PolyField:
             return _flint_text(p)
         groups = self._s_groups(p)
         pieces = []
+        known = self.__dict__.setdefault("_group_texts", {})
         for k, q in reversed(groups):
             text = _flint_text(q)
+            if len(q) > 1000 and len(known) < 256:
+                known.setdefault(len(q), []).append((q, text))
             if k == 0:
                 pieces.append(text)
                 continue
@@ -495,8 +505,9 @@ class PolyField:
 
     def _poly_latex(self, p, printer) -> str:
         cache = self.__dict__.setdefault("_latex_cache", [])
-        for q, key, known in cache:  # results share their denominator: print it once
+        for i, (q, key, known) in enumerate(cache):  # results share their denominator: print it once
             if q == p and key == self._latex_key(printer):
+                cache.append(cache.pop(i))  # most recently used last: a shared denominator stays
                 return known
         text = self._poly_latex_new(p, printer)
         if len(p) > 1000:
