@@ -113,6 +113,9 @@ def transfer_lines(tf, ascii_only: bool = False, unit=None) -> list[str]:
         what = "pole" if sec.where == "pole" else "zero"
         mult = f" (x{sec.multiplicity})" if sec.multiplicity > 1 else ""
         factor = f" [{expr_text(sec.factor)}]" if sec.factor is not None else ""
+        if sec.right_half_plane:
+            factor += (" (right half-plane: unstable)" if what == "pole" else
+                       " (right half-plane: adds phase lag)")
         if sec.order == 0:
             out.append(f"  {what} at the origin{mult}{factor}: "
                        + ("integrator (-20 dB/decade)" if what == "pole" else "differentiator (+20 dB/decade)"))
@@ -385,7 +388,8 @@ def transfer_dict(tf, unit=None) -> dict:
     sections = []
     for sec in tf.sections:
         d = {"where": sec.where, "order": sec.order,
-             "factor": expr_text(sec.factor) if sec.factor is not None else None}
+             "factor": expr_text(sec.factor) if sec.factor is not None else None,
+             "right_half_plane": sec.right_half_plane}
         if sec.w0 is not None:
             d["w0"] = _json_num(sec.w0)
             d["f0"] = _json_num(sec.f0)

@@ -221,3 +221,56 @@ def test_numeric_ladder_poles_from_polynomials_match_sympy_roots():
     ref = sorted(complex(r).real for r in sympy.Poly(den, s).nroots(n=30))
     assert sorted(r.real for r in tf.poles) == pytest.approx(ref, rel=1e-12)
     assert all(r.real < 0 and r.imag == 0 for r in tf.poles)
+
+
+@pytest.mark.parametrize("seed", range(20))
+def test_sections_keep_the_half_plane_of_each_root(seed):
+    # Each section against numpy.roots of the same polynomial (the reference): a real root r gives a
+    # first-order section with w0 = |r|, marked right_half_plane when r > 0; a complex pair gives
+    # w0 = |p| and Q = |p|/(-2*Re p), negative in the right half-plane (s**2/w0**2 + s/(Q*w0) + 1
+    # has roots with real part -w0/(2*Q): standard second-order form, e.g. Franco, Design with
+    # Operational Amplifiers, ch. 3, from memory).
+    import numpy as np
+    rng = random.Random(seed)
+    while True:
+        coeffs = [1] + [rng.randint(-9, 9) for _ in range(3)]
+        poly = sum(c * tr.s ** (3 - i) for i, c in enumerate(coeffs))
+        if len(sympy.factor_list(poly, tr.s)[1]) == 1 and coeffs[-1] != 0:  # irreducible cubic
+            break
+    tf = tr.transfer_function(1 / poly)
+    roots = np.roots(coeffs)
+    real = sorted(r.real for r in roots if abs(r.imag) < 1e-9)
+    pairs = [r for r in roots if r.imag > 1e-9]
+    firsts = sorted((float(x.w0), x.right_half_plane) for x in tf.sections if x.order == 1)
+    want = sorted((abs(r), bool(r > 0)) for r in real)
+    assert [b for _, b in firsts] == [b for _, b in want]
+    assert [a for a, _ in firsts] == pytest.approx([a for a, _ in want])
+    seconds = [x for x in tf.sections if x.order == 2]
+    assert len(seconds) == len(pairs)
+    for sec, p in zip(seconds, pairs):
+        assert float(sec.w0) == pytest.approx(abs(p))
+        assert float(sec.q) == pytest.approx(abs(p) / (-2 * p.real))
+        assert sec.right_half_plane == (p.real > 0)
+
+
+def test_first_order_all_pass_zero_is_in_the_right_half_plane():
+    # First-order all-pass (phase shifter): H = (1 - s*R*C)/(1 + s*R*C), zero at s = +1/(R*C)
+    # (Franco, Design with Operational Amplifiers, ch. 3, all-pass filters, from memory).
+    tf = tr.transfer_function((1 - s_rc()) / (1 + s_rc()))
+    zero = [x for x in tf.sections if x.where == "zero"]
+    pole = [x for x in tf.sections if x.where == "pole"]
+    assert [x.right_half_plane for x in zero] == [True] and [x.right_half_plane for x in pole] == [False]
+    assert zero[0].w0 == pole[0].w0 == sympy.Rational(1, 1000)
+
+
+def s_rc():
+    return tr.s * 1000  # R*C = 1000 s (invented values)
+
+
+def test_symbolic_all_pass_zero_is_marked_and_its_corner_is_positive():
+    # The same all-pass with R and C as symbols: the zero's corner is 1/(R*C) (positive), marked
+    # in the right half-plane (component values are positive).
+    R, C = sympy.symbols("R C")
+    tf = tr.transfer_function((1 - tr.s * R * C) / (1 + tr.s * R * C))
+    zero = [x for x in tf.sections if x.where == "zero"]
+    assert [(x.w0, x.right_half_plane) for x in zero] == [(1 / (C * R), True)]

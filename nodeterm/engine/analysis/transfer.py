@@ -36,8 +36,10 @@ class Section:
         order: 1 or 2 (0 for a factor s alone: a pole or zero at the origin).
         factor: the factor as an expression in s (None for a numeric split of a higher factor).
         w0: corner (order 1) or natural frequency (order 2) in rad/s.
-        q: quality factor (order 2), or None.
+        q: quality factor (order 2), or None; negative for a pair in the right half-plane.
         multiplicity: how many times the factor appears.
+        right_half_plane: True when the factor's roots have a positive real part (an unstable
+            pole, or a zero that adds phase lag: 1 - s/wc). ``w0`` stays the magnitude.
     """
 
     where: str
@@ -46,6 +48,7 @@ class Section:
     w0: sympy.Expr | None = None
     q: sympy.Expr | None = None
     multiplicity: int = 1
+    right_half_plane: bool = False
 
     @property
     def f0(self) -> sympy.Expr | None:
@@ -116,6 +119,11 @@ def _positive(expr: sympy.Expr) -> tuple[sympy.Expr, dict]:
     """Replace symbols by positive ones (component values) so square roots simplify."""
     fwd = {x: sympy.Symbol(x.name, positive=True) for x in expr.free_symbols if x != s}
     return expr.xreplace(fwd), {v: k for k, v in fwd.items()}
+
+
+def _negative(expr: sympy.Expr) -> bool:
+    """True when ``expr`` is negative for every positive value of its parameters."""
+    return bool(_positive(as_expr(expr))[0].is_negative)
 
 
 def _simplify_positive(expr: sympy.Expr) -> sympy.Expr:
@@ -193,19 +201,23 @@ def _sections(poly_expr: sympy.Expr, where: str) -> list[Section]:
             if a0 == 0:
                 out.append(Section(where, 0, factor, sympy.Integer(0), None, mult))
             else:
-                out.append(Section(where, 1, factor, _simplify_positive(sympy.Abs(a0 / a1)
-                                                                        if (a0 / a1).is_number else a0 / a1),
-                                   None, mult))
+                ratio = a0 / a1  # the root is s = -a0/a1: in the right half-plane when a0/a1 < 0
+                rhp = _negative(ratio)  # with every parameter positive (component values)
+                out.append(Section(where, 1, factor, _simplify_positive(-ratio if rhp else sympy.Abs(ratio)
+                                                                        if ratio.is_number else ratio),
+                                   None, mult, rhp))
         elif poly.degree() == 2 and c[1] != 0 and not _real_split(c):
             a2, a1, a0 = c
             w0 = _simplify_positive(sympy.sqrt(a0 / a2))
             q = _simplify_positive(sympy.sqrt(a0 * a2) / a1)
-            out.append(Section(where, 2, factor, w0, q, mult))
+            rhp = _negative(q)  # a1/a2 < 0: the roots have a positive real part
+            out.append(Section(where, 2, factor, w0, q, mult, rhp))
         elif poly.degree() == 2 and c[1] == 0:
             a2, _, a0 = c
             out.append(Section(where, 2, factor, _simplify_positive(sympy.sqrt(a0 / a2)), sympy.oo, mult))
         elif not (factor.free_symbols - {s}):
-            out += [Section(where, sec.order, None, sec.w0, sec.q, mult) for sec in _numeric_sections(c, where)]
+            out += [Section(where, sec.order, None, sec.w0, sec.q, mult, sec.right_half_plane)
+                    for sec in _numeric_sections(c, where)]
         else:
             out.append(Section(where, poly.degree(), factor, None, None, mult))
     return out
@@ -220,16 +232,22 @@ def _real_split(c) -> bool:
 
 
 def _numeric_sections(coeffs, where: str) -> list[Section]:
-    """Split numeric roots into real corners and complex pairs (w0 = |p|, Q = |p|/(2*|Re p|))."""
+    """Split numeric roots into real corners and complex pairs (w0 = |p|, Q = |p|/(-2*Re p)).
+
+    A root in the right half-plane keeps its sign: the section is marked ``right_half_plane``
+    and a complex pair's Q is negative (s**2/w0**2 + s/(Q*w0) + 1 has roots with real part
+    -w0/(2*Q)).
+    """
     roots = [complex(r) for r in numeric_roots(coeffs)]
     out = []
     for r in sorted(roots, key=lambda z: (abs(z), z.imag)):
         mag = abs(r)
         if abs(r.imag) <= 1e-9 * max(mag, 1e-300):
-            out.append(Section(where, 0 if mag == 0 else 1, None, sympy.Float(mag)))
+            out.append(Section(where, 0 if mag == 0 else 1, None, sympy.Float(mag),
+                               right_half_plane=mag != 0 and r.real > 0))
         elif r.imag > 0:
-            q = sympy.oo if r.real == 0 else sympy.Float(mag / (2 * abs(r.real)))
-            out.append(Section(where, 2, None, sympy.Float(mag), q))
+            q = sympy.oo if r.real == 0 else sympy.Float(mag / (-2 * r.real))
+            out.append(Section(where, 2, None, sympy.Float(mag), q, right_half_plane=r.real > 0))
     return out
 
 
