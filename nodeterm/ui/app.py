@@ -726,7 +726,17 @@ class Workbench(App):
             self.export(path, fmt)
 
     def export(self, path: str, fmt: str = "text", force: bool = False) -> bool:
-        """Write the equation set to ``path`` atomically; a failure is reported and leaves no file."""
+        """Write the equation set to ``path`` atomically; a failure is reported and leaves no file.
+
+        A large solution stays in the solver process (only its text came back): the export is then
+        rendered in a child process and written when it comes back, so the screen keeps answering
+        (a 9-section symbolic ladder takes seconds). Returns False on a failure seen at once.
+        """
+        entry = self.entry
+        if entry is not None and not entry.has("solution") and self._text_keys()["solution"] in entry.texts:
+            self._set_busy("export", f"exporting {fmt}")
+            self._export_worker(entry.study, tuple(self.verdicts), path, fmt, force)
+            return True
         from nodeterm.present.export import write_atomic
         try:
             write_atomic(path, self.export_text(fmt), force=force)
@@ -735,6 +745,37 @@ class Workbench(App):
             return False
         self.notify(f"wrote {path} ({fmt})")
         return True
+
+    @work(thread=True, group="export", description="exporting")
+    def _export_worker(self, study, verdicts: tuple, path: str, fmt: str, force: bool) -> None:
+        """Renders in a child process (this thread only waits), then writes on the event loop."""
+        worker = get_current_worker()
+        try:
+            text = solver_process.call_in_child(solver_process.export_text, study, verdicts, fmt,
+                                                cancelled=lambda: worker.is_cancelled)
+        except solver_process.Cancelled:
+            return
+        except Exception as exc:  # noqa: BLE001 - reported on screen
+            if not worker.is_cancelled:
+                self.call_from_thread(self._export_done, path, fmt, None, force, exc)
+            return
+        if not worker.is_cancelled:
+            self.call_from_thread(self._export_done, path, fmt, text, force, None)
+
+    @guarded
+    def _export_done(self, path: str, fmt: str, text: str | None, force: bool, error) -> None:
+        from nodeterm.present.export import write_atomic
+        self._set_busy("export", None)
+        self._update_status()
+        if error is not None:
+            self.report_error(error, "export")
+            return
+        try:
+            write_atomic(path, text, force=force)
+        except InputError as err:
+            self.report_error(err, "export")
+            return
+        self.notify(f"wrote {path} ({fmt})")
 
     # --- help, palette, quitting ------------------------------------------------------
     @guarded

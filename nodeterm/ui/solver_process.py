@@ -99,6 +99,16 @@ def compute_records(study, wanted, options: dict, send: Callable[[str, object], 
         send(name, Part(name, carrier, texts))
 
 
+def export_text(study, verdicts: tuple, fmt: str) -> str:
+    """The export of ``study`` in format ``fmt`` with its results (run in a child by the workbench:
+    a large solution is kept only in the solver process, so it is solved again there)."""
+    from nodeterm.engine.study import Records
+    from nodeterm.present.export import render
+    return render(Records(study.circuit, study.choice, system=study.system, matrix=study.matrix,
+                          solution=study.solution, warnings=tuple(study.warnings), verdicts=tuple(verdicts)),
+                  fmt)
+
+
 def _large(solution) -> bool:
     """True when a solution holds results kept as polynomials (a 9-section symbolic ladder's pickle is
     tens of megabytes): the workbench gets their text, and the records that need them are computed here."""

@@ -323,3 +323,34 @@ async def test_analysis_pane_shows_transfer_function():
         assert f"w0 = {sympy.sstr(w0)}" in text
         assert "Q = sqrt(2)/2" in text
         assert "note:" in text
+
+
+LADDER_5 = "\n".join(
+    ['title = "Five-section symbolic RC ladder"', "[parameters]", 'Vin = ""']
+    + [f'R{k} = ""\nC{k} = ""' for k in range(1, 6)]
+    + ["[parts]", 'VS = { kind = "voltage_source", nodes = ["n0", "gnd"], value = "Vin" }']
+    + [f'RS{k} = {{ kind = "resistor", nodes = ["n{k - 1}", "n{k}"], value = "R{k}" }}\n'
+       f'CS{k} = {{ kind = "capacitor", nodes = ["n{k}", "gnd"], value = "C{k}" }}' for k in range(1, 6)]) + "\n"
+
+
+async def test_export_of_a_large_solution_runs_off_the_event_loop_and_writes_the_results(tmp_path):
+    # A large solution stays in the solver process; the export is rendered there and written when
+    # it comes back. The file holds the same results as the command line's export (the reference).
+    from nodeterm.cli import main
+    circuit = tmp_path / "ladder5.toml"
+    circuit.write_text(LADDER_5)
+    app = Workbench(str(circuit), poll=False)
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(pilot, app, 60)
+        assert not app.entry.has("solution")  # the large solution stayed in the child
+        target = tmp_path / "ladder5.md"
+        assert app.export(str(target), "markdown")
+        assert "export" in app.busy  # handed to the solver process; the screen keeps answering
+        await pilot.press("2")       # a key meanwhile is served
+        await settle(pilot, app, 60)
+        assert app.is_running
+        text = target.read_text(encoding="utf-8")
+    cli_out = tmp_path / "cli.md"
+    assert main(["export", str(circuit), "--to", "markdown", "--output", str(cli_out)]) == 0
+    want = cli_out.read_text(encoding="utf-8")
+    assert "V_n5" in text and text.split("## Results", 1)[-1] == want.split("## Results", 1)[-1]
