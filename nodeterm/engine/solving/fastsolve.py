@@ -241,11 +241,12 @@ class PolyField:
 
     def _gcd_by_content(self, num, f):
         """``gcd(num, f)`` through ``f``'s content in a variable that ``num`` lacks, or None."""
-        fdeg, ndeg = f.degrees(), num.degrees()
+        known = self._contents.setdefault(id(f), (f, {}, f.degrees()))  # f kept alive: its id stays its own
+        fdeg, ndeg = known[2], num.degrees()
         free = [i for i, (a, b) in enumerate(zip(fdeg, ndeg)) if a > 0 and b == 0]
         if not free:
             return None
-        known = self._contents.setdefault(id(f), (f, {}))[1]  # f kept alive: its id stays its own
+        known = known[1]
         i = next((i for i in free if i in known), None)
         if i is None:
             i = min(free, key=lambda j: fdeg[j])
@@ -285,6 +286,15 @@ class PolyField:
 
     def mul(self, a: tuple, b: tuple) -> tuple:
         (an, ad), (bn, bd) = a, b  # a factor 1 is skipped: a large polynomial times 1 is still a copy
+        if len(ad) == 1 and an.is_one() and not ad.is_one() and len(bd) > KNOWN_FACTOR_TERMS:
+            (an, ad), (bn, bd) = b, a
+        if bn.is_one() and len(bd) == 1 and not bd.is_one() and len(ad) > KNOWN_FACTOR_TERMS:
+            # x/R with x over the shared determinant: R usually divides x's numerator (a branch
+            # current); dividing now spares multiplying the determinant by R and dividing it back
+            try:
+                return an / bd, ad
+            except FlintError:
+                pass
         num = bn if an.is_one() else an if bn.is_one() else an * bn
         den = bd if ad.is_one() else ad if bd.is_one() else ad * bd
         return num, den
