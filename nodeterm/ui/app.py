@@ -229,15 +229,21 @@ class Workbench(App):
                         description="what the reload changed")
 
     def _diff_work(self, previous, study) -> None:
-        from nodeterm.engine.review.diff import diff_studies
+        """Runs in a thread that only waits: the diff solves both versions in the solver process
+        (in a thread it would hold the GIL and stall the screen on a big circuit)."""
+        worker = get_current_worker()
         try:
-            diff = diff_studies(previous.with_choice(previous.choice), study.with_choice(study.choice),
-                                "previous version", "now")
-        except Exception as exc:  # noqa: BLE001 - the diff is a help; the reload itself succeeded
-            self.call_from_thread(self.notify, f"could not compare with the previous version: {describe(exc)}",
-                                  severity="warning")
+            diff = solver_process.call_in_child(solver_process.diff_of, previous, study,
+                                                cancelled=lambda: worker.is_cancelled)
+        except solver_process.Cancelled:
             return
-        self.call_from_thread(self._diff_ready, diff)
+        except Exception as exc:  # noqa: BLE001 - the diff is a help; the reload itself succeeded
+            if not worker.is_cancelled:
+                self.call_from_thread(self.notify, f"could not compare with the previous version: "
+                                      f"{describe(exc)}", severity="warning")
+            return
+        if not worker.is_cancelled:
+            self.call_from_thread(self._diff_ready, diff)
 
     def _diff_ready(self, diff) -> None:
         self.last_diff = diff

@@ -109,6 +109,13 @@ def export_text(study, verdicts: tuple, fmt: str) -> str:
                   fmt)
 
 
+def diff_of(previous, study):
+    """What changed from study ``previous`` to ``study`` (the workbench's reload diff)."""
+    from nodeterm.engine.review.diff import diff_studies
+    return diff_studies(previous.with_choice(previous.choice), study.with_choice(study.choice),
+                        "previous version", "now")
+
+
 def _large(solution) -> bool:
     """True when a solution holds results kept as polynomials (a 9-section symbolic ladder's pickle is
     tens of megabytes): the workbench gets their text, and the records that need them are computed here."""
