@@ -179,6 +179,12 @@ class Study:
             groups.append(limit_warnings(list(self.limits)))
         except SolveError:
             pass
+        try:
+            from nodeterm.engine.analysis.stability import stability_warnings, worth_checking
+            if worth_checking(self.system):
+                groups.append(stability_warnings(self.numeric.system))
+        except SolveError:
+            pass
         return tuple(merge(*groups))
 
     @cached_property
