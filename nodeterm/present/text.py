@@ -19,11 +19,24 @@ def matrix_lines(m, ascii_only: bool = False) -> list[str]:
     return [line(head), line(["-" * w for w in widths])] + [line(r) for r in rows]
 
 
+WIDTH = 79
+"""Prose lines of the report are wrapped to this width (equations never are: they stay one line each)."""
+
+
+def prose(text: str, indent: str = "  ", first: str | None = None) -> list[str]:
+    """``text`` wrapped to :data:`WIDTH` columns (an 80-column terminal shows it without soft wraps)."""
+    import textwrap
+    keep = text.replace(" = ", "\u00a0=\u00a0")  # an equation in the prose stays on one line
+    lines = textwrap.wrap(keep, WIDTH, initial_indent=indent if first is None else first,
+                          subsequent_indent=indent, break_long_words=False, break_on_hyphens=False)
+    return [line.replace("\u00a0", " ") for line in lines] or [indent]
+
+
 def steps_lines(system) -> list[str]:
     out: list[str] = []
     for i, step in enumerate(system.steps, start=1):
         out.append(f"Step {i}. {step.title}")
-        out.append(f"  {step.text}")
+        out += prose(step.text)
         for e in step.equations:
             out.append(f"    [{e.label}]  {equation_text(e)}")
             if e.terms and step.kind == "kcl":
@@ -46,8 +59,8 @@ def solution_lines(system, solution, ascii_only: bool = False, transfer: dict | 
         tag = " (reference)" if n == c.reference else ""
         out.append(f"  V_{n} = {value_text(v, UNIT_V, ascii_only)}{tag}")
     out.append("")
-    out.append("Currents (resistor/capacitor/inductor/source: from its first node to its second; "
-               "op-amp: out of its output pin)")
+    out += prose("Currents (resistor/capacitor/inductor/source: from its first node to its second; "
+                 "op-amp: out of its output pin)", "  ", "")
     kinds = {p.id: p.kind for p in c.parts}
     for pid, v in solution.currents.items():
         out.append(f"  I_{pid} = {value_text(v, UNIT_A, ascii_only)}  [{kinds[pid]}]")
@@ -62,8 +75,8 @@ def solution_lines(system, solution, ascii_only: bool = False, transfer: dict | 
 
 
 def warning_lines(warnings) -> list[str]:
-    """One ``warning:`` line per warning or caution, and a blank line after them."""
-    return [f"warning: {w.message}" for w in warnings] + ([""] if warnings else [])
+    """Each warning or caution starting with ``warning:`` (wrapped, continued indented), then a blank line."""
+    return [line for w in warnings for line in prose(w.message, "  ", "warning: ")] + ([""] if warnings else [])
 
 
 def report(records, ascii_only: bool = False) -> str:
