@@ -45,7 +45,7 @@ def characteristic_polynomial(system) -> list[int] | None:
     None when a parameter is still a symbol, the equations are not square, or the work is out of
     bounds; ``[]`` when nothing depends on s (a resistive circuit has no modes).
     """
-    from nodeterm.engine.solving.fastsolve import PolyField, Unsupported, _symbols_and_atoms
+    from nodeterm.engine.solving.fastsolve import PolyField, Unsupported, _symbols_and_atoms, cleared_row
     from nodeterm.engine.solving.fraction_free import TooManyTerms, determinant
     m = system.matrix()
     A = m.A
@@ -64,13 +64,8 @@ def characteristic_polynomial(system) -> list[int] | None:
     rows, scale = [], field.one
     try:
         for i in range(n):
-            entries = {j: field.ev(A[i, j]) for j in range(n) if A[i, j] != 0}
-            den = field.one
-            for _, d in entries.values():  # clear the row's denominators (their lcm)
-                if not d.is_one():
-                    g = den.gcd(d)
-                    den = den * (d / g) if not g.is_one() else den * d
-            rows.append({j: nd[0] * (den / nd[1]) for j, nd in entries.items() if not nd[0].is_zero()})
+            row, den = cleared_row(field, {j: field.ev(A[i, j]) for j in range(n) if A[i, j] != 0})
+            rows.append(row)
             scale = scale * den
         det = determinant(rows, n, field.one, MAX_TERMS)
     except (TooManyTerms, Unsupported, ZeroDivisionError):

@@ -735,6 +735,16 @@ def _symbols_and_atoms(exprs) -> tuple[set, set]:
     return syms, atoms
 
 
+def cleared_row(field: PolyField, entries: dict) -> tuple[dict, object]:
+    """A row of fractions (column -> (num, den)) times the lcm of its denominators: (polynomial row, lcm)."""
+    den = field.one
+    for _, d in entries.values():
+        if not d.is_one():
+            g = den.gcd(d)
+            den = den * (d / g) if not g.is_one() else den * d
+    return {j: nd[0] * (den / nd[1]) for j, nd in entries.items() if not nd[0].is_zero()}, den
+
+
 def solve_fractions(field: PolyField, A: sympy.Matrix, b: sympy.Matrix):
     """Solve A x = b in ``field``: a list of unreduced fractions sharing one denominator, or None."""
     n = A.shape[1]
@@ -746,12 +756,7 @@ def solve_fractions(field: PolyField, A: sympy.Matrix, b: sympy.Matrix):
                 entries[j] = field.ev(A[i, j])
         if b[i, 0] != 0:
             entries[n] = field.ev(b[i, 0])
-        den = field.one
-        for _, d in entries.values():  # clear the row's denominators (their lcm)
-            if not d.is_one():
-                g = den.gcd(d)
-                den = den * (d / g) if not g.is_one() else den * d
-        rows.append({j: nd[0] * (den / nd[1]) for j, nd in entries.items() if not nd[0].is_zero()})
+        rows.append(cleared_row(field, entries)[0])
     out = cramer(rows, n, field.one, TERM_LIMIT)
     if out is None:
         return None
