@@ -6,6 +6,8 @@ Exit status: 0 success, 1 a check found a wrong claim (or a warning with ``--str
 
 Each subcommand module (``cli_audit``, ``cli_analysis``, ``cli_diff``) provides ``add_parsers(sub)`` and a
 ``COMMANDS`` table; this module puts them together. The options they share are in :mod:`.cli_common`.
+They import the engine (SymPy), so they are imported only when a subcommand runs: the workbench
+draws its first screen before the engine is imported in this process (:mod:`nodeterm.ui.first_screen`).
 """
 
 from __future__ import annotations
@@ -18,13 +20,14 @@ import sys
 # A command is one short process that builds many objects and frees few: the cyclic collector's
 # default (a pass every 700 allocations) rescans the big SymPy heap over and over. Fewer, larger
 # passes take 10-15 % off loading a 10,000-part file and off big exact results, at the same peak
-# memory (measured with benchmarks/records.py). Set before the heavy imports below.
+# memory (measured with benchmarks/records.py). Set before the heavy imports.
 gc.set_threshold(100_000, 50, 100)
 
-from nodeterm import cli_analysis, cli_audit, cli_diff
-from nodeterm.cli_common import DEFAULT_TIME_LIMIT, add_common, strict_status, study_from
-from nodeterm.engine.budget import OutOfBudget, budget
-from nodeterm.engine.errors import InputError
+from nodeterm.engine.budget import OutOfBudget, budget  # noqa: E402 - light (no SymPy)
+from nodeterm.engine.errors import InputError  # noqa: E402 - light (no SymPy)
+
+COMMAND_NAMES = ("solve", "check", "export", "response", "real", "limits", "sensitivity", "tolerance", "diff")
+"""Every subcommand (the keys of :data:`COMMANDS`, known without importing the subcommand modules)."""
 
 SOLVE_RECORDS = ("system", "matrix", "solution", "warnings")
 JSON_RECORDS = SOLVE_RECORDS + ("transfer", "limits")
@@ -33,6 +36,7 @@ JSON_BUDGETS = {"transfer": 20.0}
 
 
 def cmd_solve(args) -> int:
+    from nodeterm.cli_common import strict_status, study_from
     if args.numeric:
         return _solve_numeric(args)
     study = study_from(args)
@@ -54,6 +58,7 @@ def _solve_numeric(args) -> int:
     from nodeterm.engine.circuit.size_limits import EXACT_NODE_LIMIT
     from nodeterm.engine.solving.numeric import NumericModel
     from nodeterm.present.numeric import numeric_json, numeric_report
+    from nodeterm.cli_common import study_from
     study = study_from(args, exact=False)
     circuit = study.circuit
     s_value = 0 if args.frequency is None else complex(0, 2 * math.pi * args.frequency)
@@ -67,10 +72,25 @@ def _solve_numeric(args) -> int:
     return 0
 
 
-COMMANDS = {"solve": cmd_solve, **cli_audit.COMMANDS, **cli_analysis.COMMANDS, **cli_diff.COMMANDS}
+def commands() -> dict:
+    """name -> the function that runs the subcommand (imports the subcommand modules on first use)."""
+    table = globals().get("COMMANDS")
+    if table is None:
+        from nodeterm import cli_analysis, cli_audit, cli_diff
+        table = {"solve": cmd_solve, **cli_audit.COMMANDS, **cli_analysis.COMMANDS, **cli_diff.COMMANDS}
+        globals()["COMMANDS"] = table
+    return table
+
+
+def __getattr__(name: str):
+    if name == "COMMANDS":  # ``cli.COMMANDS``: the table, built on first use
+        return commands()
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
 def build_parser() -> argparse.ArgumentParser:
+    from nodeterm import cli_analysis, cli_audit, cli_diff
+    from nodeterm.cli_common import add_common
     parser = argparse.ArgumentParser(
         prog="nodeterm",
         description="Node-voltage equations of op-amp circuits: derive, solve exactly, audit, export. "
@@ -91,24 +111,32 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def open_workbench(path: str | None) -> int:
+    """Open the workbench on ``path`` (the bundled demo when None); a file that does not load is
+    reported (InputError) before the screen opens.
+
+    A child process loads the file and prints the first screen's text while this process imports
+    Textual (:mod:`nodeterm.ui.first_screen`); without it, the file is loaded here first.
+    """
+    from nodeterm.ui import first_screen
+    pending = first_screen.start(path)
     from nodeterm.ui.app import run  # Textual is imported only here
-    return run(path)
+    first = pending.result() if pending is not None else None  # raises InputError for a bad file
+    if first is None and path is not None:
+        from nodeterm.engine.circuit.loader import load_circuit
+        load_circuit(path)  # a bad file is reported here, before the screen opens
+    return run(path, first)
 
 
 def main(argv: list[str] | None = None) -> int:
     argv = list(sys.argv[1:] if argv is None else argv)
     try:
-        if not argv or (argv[0] not in COMMANDS and argv[0] not in ("-h", "--help", "--version")
+        if not argv or (argv[0] not in COMMAND_NAMES and argv[0] not in ("-h", "--help", "--version")
                         and not argv[0].startswith("-")):
             if len(argv) > 1:
                 print(f"nodeterm: unexpected arguments {' '.join(argv[1:])!r}; "
                       "use 'nodeterm FILE' or 'nodeterm COMMAND ...' (see nodeterm --help)", file=sys.stderr)
                 return 2
-            path = argv[0] if argv else None
-            if path is not None:
-                from nodeterm.engine.circuit.loader import load_circuit
-                load_circuit(path)  # a bad file is reported here, before the screen opens
-            return open_workbench(path)
+            return open_workbench(argv[0] if argv else None)
         if argv[0] == "--version":
             from nodeterm import __version__
             print(f"nodeterm {__version__}")
@@ -118,10 +146,11 @@ def main(argv: list[str] | None = None) -> int:
             args = parser.parse_args(argv)
         except SystemExit as exc:  # argparse already printed its message
             return 0 if exc.code == 0 else 2
+        from nodeterm.cli_common import DEFAULT_TIME_LIMIT
         limit = getattr(args, "time_limit", DEFAULT_TIME_LIMIT)
         try:
             with budget(limit) as token:
-                return COMMANDS[args.command](args)
+                return commands()[args.command](args)
         except OutOfBudget as exc:
             if exc.token is not token:
                 raise
@@ -150,7 +179,7 @@ def entry() -> None:
     """
     code = main()
     argv = sys.argv[1:]
-    if not argv or argv[0] not in COMMANDS:
+    if not argv or argv[0] not in COMMAND_NAMES:
         sys.exit(code)
     for stream in (sys.stdout, sys.stderr):
         try:
@@ -160,7 +189,7 @@ def entry() -> None:
     os._exit(code)
 
 
-__all__ = ["COMMANDS", "build_parser", "entry", "main"]
+__all__ = ["COMMANDS", "COMMAND_NAMES", "build_parser", "commands", "entry", "main"]
 
 if __name__ == "__main__":  # pragma: no cover
     entry()

@@ -11,8 +11,27 @@ from __future__ import annotations
 import textwrap
 from functools import lru_cache
 
-from nodeterm.present.connections import connection_lines
-from nodeterm.present.format import equation_text, expr_text, value_text
+
+# The formatters below import SymPy; they are imported on first use, so the workbench can import
+# this module (and draw its first screen from text computed in another process) before SymPy is in.
+def equation_text(*args, **kwargs) -> str:
+    from nodeterm.present.format import equation_text as text
+    return text(*args, **kwargs)
+
+
+def expr_text(*args, **kwargs) -> str:
+    from nodeterm.present.format import expr_text as text
+    return text(*args, **kwargs)
+
+
+def value_text(*args, **kwargs) -> str:
+    from nodeterm.present.format import value_text as text
+    return text(*args, **kwargs)
+
+
+def connection_lines(*args, **kwargs) -> list[str]:
+    from nodeterm.present.connections import connection_lines as lines
+    return lines(*args, **kwargs)
 
 MARK = "▶"       # marks the selected item (a textual marker, legible without colour)
 TIED = "*"       # marks items tied to the selection
@@ -65,6 +84,15 @@ def node_roles(circuit) -> dict[str, str]:
 
 
 # --- the circuit pane ---------------------------------------------------------------------------
+def warnings_line(warnings) -> str:
+    """The one line under the status line: the first warning and how many more ("" when none)."""
+    if not warnings:
+        return ""
+    first = getattr(warnings[0], "message", str(warnings[0]))
+    more = f" (+{len(warnings) - 1} more, key 1)" if len(warnings) > 1 else " (key 1: circuit)"
+    return f"! {first}{more}"
+
+
 def warning_lines(warnings) -> list[str]:
     return [f"! {getattr(w, 'message', w)}" for w in warnings]
 
@@ -112,6 +140,14 @@ def step_head(index: int, total: int, step) -> str:
     return f"Step {index + 1} of {total}: {step.title}"
 
 
+STEP_KEYS = "   (n next, b back)"
+
+
+def step_heading(index: int, total: int, step) -> str:
+    """The steps pane's head line: the step, then the keys that walk the procedure."""
+    return step_head(index, total, step) + STEP_KEYS
+
+
 def step_text(step) -> str:
     """What the step did, with the unknowns it leaves; said once."""
     extra = []
@@ -155,6 +191,24 @@ def equation_prompt(eq, mark: str, selected_part: str | None, body: str) -> str:
     elif eq.parts:
         lines.append("     parts: " + ", ".join(eq.parts))
     return "\n".join(lines)
+
+
+def equation_prompts(step, selected_eq: int | None, selected_part: str | None, changed=frozenset(),
+                     two_d: bool = False, width: int = 70) -> list[str]:
+    """Every equation of ``step`` as the steps pane lists it: the selected one marked ▶, those that
+    hold the selected part *, those the last reload changed ~."""
+    out = []
+    for i, eq in enumerate(step.equations):
+        holds = selected_part is not None and selected_part in equation_parts(eq)
+        mark = MARK if i == selected_eq else (TIED if holds else (CHANGED if eq.label in changed else " "))
+        out.append(equation_prompt(eq, mark, selected_part, equation_body(eq, two_d, width)))
+    return out
+
+
+def part_prompts(parts, selected_part: str | None, tied) -> list[str]:
+    """Every part as the steps pane lists it: the selected one marked ▶, the parts of the selected
+    equation *."""
+    return [part_prompt(p, MARK if p.id == selected_part else (TIED if p.id in tied else " ")) for p in parts]
 
 
 def part_prompt(part, mark: str, width: int = 18) -> str:

@@ -8,6 +8,11 @@ for, so undo, redo, reload and re-solve always show one study's records together
 from :mod:`nodeterm.present.panes`; every pane redraws only when its text changes, and nothing is
 written while idle (the busy time ticks once a second, only while busy).
 
+Opened from the command line, the first screen is text printed by a child process while this one
+imported Textual (:mod:`.first_screen`): it is drawn at once, then the engine is imported in a
+worker thread and the session opens the file; keys pressed meanwhile are held and run in order
+once it is open, and only then is the solve asked for.
+
 Focus rules: typed text never runs as a command (a focused box takes every printable key); a
 value always lands on the parameter named beside the box (the value dialog, Up/Down choose it);
 pane keys work from every pane except while typing in a box, which Esc leaves.
@@ -20,7 +25,7 @@ import os
 import time
 from functools import partial
 
-from textual import on, work
+from textual import events, on, work
 from textual.app import App, SystemCommand
 from textual.binding import Binding
 from textual.css.query import NoMatches
@@ -28,12 +33,13 @@ from textual.markup import escape
 from textual.widgets import Footer, Input, TabbedContent, TabPane
 from textual.worker import get_current_worker
 
-from nodeterm.engine import InputError
+from nodeterm.engine.errors import InputError
 from nodeterm.present import panes
 from nodeterm.ui import solver_process, threads
 from nodeterm.ui.analysis_pane import AnalysisPane
 from nodeterm.ui.circuit_pane import CircuitPane
 from nodeterm.ui.claims_pane import ClaimsPane
+from nodeterm.ui.first_screen import FirstScreen
 from nodeterm.ui.dialogs import DiffScreen, ConfirmScreen, ExportScreen, HelpScreen, PathScreen, ValueScreen
 from nodeterm.ui.keys import KEYS, help_text
 from nodeterm.ui.matrix_pane import MatrixPane
@@ -57,12 +63,19 @@ class Workbench(App):
     TITLE = "nodeterm"
     BINDINGS = [Binding(k.keys, k.action, k.shown or k.title, show=bool(k.shown)) for k in KEYS]
 
-    def __init__(self, path: str | None = None, poll: bool = True) -> None:
+    def __init__(self, path: str | None = None, poll: bool = True, first: FirstScreen | None = None) -> None:
+        """``first``: the first screen's text, printed elsewhere (:mod:`.first_screen`) for ``path``;
+        drawn at once, while the engine is imported and the session opens ``first.path``."""
         # NO_COLOR: the terminal's own colours with every colour removed, instead of greys in 256
         # colours (a third of the bytes of every redraw over SSH)
         self.plain = os.environ.get("NO_COLOR") is not None
         super().__init__(ansi_color=True if self.plain else None)
-        solver_process.start_server()  # before Textual takes over sys.stderr
+        self.first = first
+        self.held: list[events.Key] | None = [] if first is not None else None  # keys waiting for the session
+        if first is None:
+            solver_process.start_server()  # before Textual takes over sys.stderr
+        else:
+            solver_process.start_tracker()  # before Textual takes over sys.stderr; the server after the first screen
         self.start_path = path
         self.poll = poll
         self.session = Session()
@@ -87,21 +100,20 @@ class Workbench(App):
         yield TextView("nodeterm: loading...", id="status")
         yield TextView("", id="problem")
         yield TextView("", id="warnings")
+        # With a first screen, only the steps pane is there to draw it: the others (hidden behind
+        # their tabs) are mounted once it is drawn (_after_first_screen), which makes it come sooner.
+        self.later = []
+        panes_ = (("1 Circuit", "circuit", CircuitPane), ("2 Steps", "steps", StepsPane),
+                  ("3 Values", "values", ValuesPane), ("4 Matrix", "matrix", MatrixPane),
+                  ("5 Results", "results", ResultsPane), ("6 Claims", "claims", ClaimsPane),
+                  ("7 Analysis", "analysis", AnalysisPane))
         with TabbedContent(id="panes", initial="steps"):
-            with TabPane("1 Circuit", id="circuit"):
-                yield CircuitPane(id="circuit-pane")
-            with TabPane("2 Steps", id="steps"):
-                yield StepsPane(id="steps-pane")
-            with TabPane("3 Values", id="values"):
-                yield ValuesPane(id="values-pane")
-            with TabPane("4 Matrix", id="matrix"):
-                yield MatrixPane(id="matrix-pane")
-            with TabPane("5 Results", id="results"):
-                yield ResultsPane(id="results-pane")
-            with TabPane("6 Claims", id="claims"):
-                yield ClaimsPane(id="claims-pane")
-            with TabPane("7 Analysis", id="analysis"):
-                yield AnalysisPane(id="analysis-pane")
+            for title, name, widget in panes_:
+                with TabPane(title, id=name):
+                    if self.first is None or name == "steps":
+                        yield widget(id=f"{name}-pane")
+                    else:
+                        self.later.append((name, widget))
         yield TextView("", id="message")
         yield Footer()
 
@@ -116,8 +128,65 @@ class Workbench(App):
             self.query_one(line).display = False
         if self.poll:
             self.set_interval(POLL_SECONDS, self.poll_file)
-        self.open_path(self.start_path)
+        if self.first is not None:
+            self._show_first(self.first)
+            self.call_after_refresh(self._after_first_screen)
+        else:
+            self.open_path(self.start_path)
         self.query_one("#equation-list").focus()
+
+    # --- the first screen, before the engine is imported --------------------------------------
+    def _show_first(self, first: FirstScreen) -> None:
+        self.query_one(StepsPane).show_first(first.step_head, first.step_text, list(first.equations),
+                                             list(first.parts))
+        self._set_line("#warnings", first.warnings)
+        self._update_status()
+
+    async def _after_first_screen(self) -> None:
+        """The first screen is drawn: mount the other panes, start the solver processes' server and
+        import the engine (the held keys wait until the session is open, so no pane shows before)."""
+        for name, widget in self.later:
+            await self.query_one(f"#{name}", TabPane).mount(widget(id=f"{name}-pane"))
+        self.later = []
+        solver_process.start_server()
+        self.run_worker(partial(self._open_session, self.first.path), thread=True, group="session",
+                        description="importing the engine and opening the file")
+
+    def _open_session(self, path: str) -> None:
+        """In a worker thread: import the engine and open ``path`` in a new session."""
+        from nodeterm.ui.session import Session
+        session = Session()
+        try:
+            session.open(path)
+        except Exception as exc:  # noqa: BLE001 - shown by _session_opened
+            self.call_from_thread(self._session_opened, None, exc)
+            return
+        self.call_from_thread(self._session_opened, session, None)
+
+    @guarded
+    def _session_opened(self, session, error: BaseException | None) -> None:
+        """The session is open (or could not open): show it, ask for the solve, run the held keys."""
+        held, self.held = self.held or [], None
+        try:
+            if error is None:
+                self.session = session
+                self.first = None
+                self.show_entry(step=0)
+            else:
+                self._set_line("#problem", f"! {describe(error)}")
+                self.report_error(error, "open the file")
+            gc.freeze()  # the engine's modules, imported just now, live as long as the app
+        finally:
+            for key in held:
+                self.post_message(events.Key(key.key, key.character))
+
+    async def on_event(self, event: events.Event) -> None:
+        """Until the session is open, keys are held (and run in order once it is); the mouse waits."""
+        if self.held is not None and isinstance(event, events.InputEvent) and not event.is_forwarded:
+            if isinstance(event, events.Key):
+                self.held.append(event)
+            return
+        await super().on_event(event)
 
     # --- compatibility views of the current state (tests and exports read them) -------------------
     @property
@@ -296,13 +365,7 @@ class Workbench(App):
         return tuple(entry.system.warnings)
 
     def _show_warnings(self, entry: Entry) -> None:
-        warnings = self._warnings(entry)
-        if not warnings:
-            self._set_line("#warnings", "")
-            return
-        first = getattr(warnings[0], "message", str(warnings[0]))
-        more = f" (+{len(warnings) - 1} more, key 1)" if len(warnings) > 1 else " (key 1: circuit)"
-        self._set_line("#warnings", f"! {first}{more}")
+        self._set_line("#warnings", panes.warnings_line(self._warnings(entry)))
 
     def _text_keys(self) -> dict[str, tuple]:
         width = self.query_one(ResultsPane).text_width
@@ -444,9 +507,11 @@ class Workbench(App):
             what, since = min(self.busy.values(), key=lambda b: b[1])
             busy = (what, int(time.monotonic() - since))
         system = self.system
-        text = panes.status_line(pane, os.path.basename(self.session.path) if self.session.path else None,
-                                 (steps.index + 1, len(steps.steps)) if steps.steps else None,
-                                 len(system.values) if system is not None else None, self.two_d, busy,
+        path, total, values = self.session.path, len(steps.steps), len(system.values) if system is not None else None
+        if system is None and self.first is not None:  # the first screen, before the session is open
+            path, total, values = self.first.path, self.first.steps, self.first.value_count
+        text = panes.status_line(pane, os.path.basename(path) if path else None,
+                                 (steps.index + 1, total) if total else None, values, self.two_d, busy,
                                  self.size.width or 80)
         if isinstance(self.focused, Input):
             text = "TYPING, Esc leaves | " + text
@@ -816,8 +881,10 @@ class Workbench(App):
         yield SystemCommand("Theme", "Change the colour theme", self.action_change_theme)
 
 
-def run(path: str | None) -> int:
-    """Run the workbench on ``path`` (the bundled demo when None); returns the exit status."""
-    app = Workbench(path)
+def run(path: str | None, first: FirstScreen | None = None) -> int:
+    """Run the workbench on ``path`` (the bundled demo when None); returns the exit status.
+
+    ``first``: the first screen's text printed by :mod:`.first_screen` for that file, drawn at once."""
+    app = Workbench(path, first=first)
     result = app.run()
     return result if isinstance(result, int) else (app.return_code or 0)

@@ -20,7 +20,6 @@ from textual.containers import Vertical
 from textual.widgets import Static
 from textual.worker import get_current_worker
 
-from nodeterm.present.format import eng
 from nodeterm.ui.safety import describe, guarded
 
 MIN_PLOT_HEIGHT = 19
@@ -51,6 +50,7 @@ def responses_of(system, solution) -> list[Response]:
 
 def band_text(r: Response) -> str:
     """The -3 dB band of one response in words (with the reference gain it is measured from)."""
+    from nodeterm.present.format import eng
     bw = r.bandwidth
     if bw is None:
         return "-3 dB band: none (no gain at DC and no peak inside the range: an integrator or a high-pass)"

@@ -13,7 +13,7 @@ import logging
 import os
 from pathlib import Path
 
-from nodeterm.engine import InputError
+from nodeterm.engine.errors import InputError
 
 _logger: logging.Logger | None = None
 

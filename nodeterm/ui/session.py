@@ -15,9 +15,15 @@ from __future__ import annotations
 import os
 from dataclasses import dataclass, field
 
-from nodeterm.engine import InputError, load_circuit
-from nodeterm.engine.study import Study
-from nodeterm.engine.values import KNOWN, Substitution, ValueChoice, parse_value
+from typing import TYPE_CHECKING
+
+from nodeterm.engine.errors import InputError
+
+if TYPE_CHECKING:
+    from nodeterm.engine.study import Study
+
+# The engine (SymPy) is imported by the methods that use it, on first use: the workbench draws its
+# first screen before that (see :mod:`.first_screen`).
 
 
 @dataclass(eq=False)
@@ -87,6 +93,8 @@ class Session:
     # --- loading ------------------------------------------------------------
     def open(self, path: str) -> None:
         """Load ``path`` with no substitutions; on failure nothing changes and InputError is raised."""
+        from nodeterm.engine.circuit.loader import load_circuit
+        from nodeterm.engine.study import Study
         mtime = _mtime(path)
         try:
             study = Study(load_circuit(path))
@@ -106,6 +114,9 @@ class Session:
         Raises:
             InputError: the file no longer loads; the last good state is kept.
         """
+        from nodeterm.engine.circuit.loader import load_circuit
+        from nodeterm.engine.study import Study
+        from nodeterm.engine.values import ValueChoice, parse_value
         if self.path is None:
             raise InputError("no file is open", hint="open a circuit file first")
         self.mtime = _mtime(self.path)  # do not retry the same broken file every poll
@@ -147,6 +158,7 @@ class Session:
         Raises:
             InputError: a bad value or name; nothing changes.
         """
+        from nodeterm.engine.values import Substitution, ValueChoice, parse_value
         study = self._study()
         parse_value(study.circuit, name, value)  # fails here, before anything changes
         new = Substitution("set", ((name, value),))
@@ -166,6 +178,7 @@ class Session:
 
     def substitute_known(self) -> Entry | None:
         """Substitute every value the file gives; None when every one is substituted already."""
+        from nodeterm.engine.values import KNOWN
         study = self._study()
         if study.system.apply(KNOWN) is study.system:
             return None

@@ -184,6 +184,18 @@ def start_server() -> None:
         pass
 
 
+def start_tracker() -> None:
+    """Start only multiprocessing's resource tracker now (it must start before Textual runs, see
+    :func:`start_server`); the fork server can then start later, once the first screen is drawn, so
+    its imports do not compete with drawing it."""
+    try:
+        if context().get_start_method() == "forkserver":
+            from multiprocessing import resource_tracker
+            resource_tracker.ensure_running()
+    except Exception:  # noqa: BLE001 - start_server tries again; else the work runs in the worker thread
+        pass
+
+
 def records_in_process(study, wanted, options: dict, cancelled: Callable[[], bool],
                        on_part: Callable[[Part], None]) -> None:
     """Compute records of ``study`` in a child process (:func:`compute_records`); ``on_part`` gets each.

@@ -48,6 +48,7 @@ class StepsPane(Vertical):
         self.changed_labels: frozenset = frozenset()  # equations the last reload changed, marked CHANGED
         self._eq_prompts: list[str] = []
         self._part_prompts: list[str] = []
+        self._first_ids: list[str] | None = None  # the parts the first screen listed (before any system)
 
     def compose(self):
         yield TextView("", id="step-head")
@@ -65,8 +66,11 @@ class StepsPane(Vertical):
         """Show ``system``: its last step when ``last`` (a substitution was just made), else the same
         step number, clamped to the steps it has."""
         same_circuit = self.system is not None and system.circuit is self.system.circuit
+        # the first screen listed the same parts already: keep the list (nothing to redraw)
+        shown = self.system is None and self._first_ids == [p.id for p in system.circuit.parts]
         self.system = system
-        if not same_circuit:
+        self._first_ids = None
+        if not same_circuit and not shown:
             self._part_prompts = []
             parts = self.query_one("#parts-list", OptionList)
             parts.clear_options()
@@ -75,6 +79,26 @@ class StepsPane(Vertical):
                 self.selected_part = None
         self.index = len(system.steps) - 1 if last else max(0, min(self.index, len(system.steps) - 1))
         self._show_step()
+
+    def show_first(self, head: str, text: str, equations: list[str], parts: list[tuple[str, str]]) -> None:
+        """Show the first step from text printed elsewhere (the workbench's first screen, drawn before
+        the engine is imported here): ``equations`` and ``parts`` ((id, prompt) pairs) as
+        :func:`~nodeterm.present.panes.equation_prompts` and ``part_prompts`` print them for step 1."""
+        self.index = 0
+        self._first_ids = [pid for pid, _ in parts]
+        self.query_one("#step-head", TextView).set(head)
+        self.query_one("#step-text", TextView).set(text)
+        lst = self.query_one("#parts-list", OptionList)
+        lst.clear_options()
+        lst.add_options([Option(Content(prompt), id=pid) for pid, prompt in parts])
+        self._part_prompts = [prompt for _, prompt in parts]
+        eqs = self.query_one("#equation-list", OptionList)
+        eqs.clear_options()
+        eqs.add_options([Option(Content(p)) for p in equations])
+        self._eq_prompts = list(equations)
+        self.selected_eq = 0 if equations else None
+        if equations:
+            eqs.highlighted = 0
 
     @property
     def steps(self):
@@ -113,7 +137,7 @@ class StepsPane(Vertical):
         if step is None:
             return
         total = len(self.steps)
-        self.query_one("#step-head", TextView).set(panes.step_head(self.index, total, step) + "   (n next, b back)")
+        self.query_one("#step-head", TextView).set(panes.step_heading(self.index, total, step))
         self.query_one("#step-text", TextView).set(panes.step_text(step))
         self.selected_eq = 0 if step.equations else None
         self._fill_equations()
@@ -125,8 +149,12 @@ class StepsPane(Vertical):
         self._fill_equations()
 
     def _fill_equations(self) -> None:
+        if self.system is None:  # the first screen, drawn before the engine: nothing to select yet
+            return
         step = self.step
-        prompts = [self._eq_prompt(i) for i in range(len(step.equations))] if step is not None else []
+        width = max(20, self.query_one("#equation-list").size.width - 8)
+        prompts = panes.equation_prompts(step, self.selected_eq, self.selected_part, self.changed_labels,
+                                         self.two_d, width) if step is not None else []
         eqs = self.query_one("#equation-list", OptionList)
         if prompts != self._eq_prompts:
             if len(prompts) == len(self._eq_prompts):
@@ -141,23 +169,10 @@ class StepsPane(Vertical):
             eqs.highlighted = self.selected_eq or 0
         self._refresh_parts()
 
-    def _eq_prompt(self, i: int) -> str:
-        eq = self.step.equations[i]
-        holds = self.selected_part is not None and self.selected_part in panes.equation_parts(eq)
-        changed = eq.label in self.changed_labels
-        mark = panes.MARK if i == self.selected_eq else (panes.TIED if holds else (panes.CHANGED if changed else " "))
-        width = max(20, self.query_one("#equation-list").size.width - 8)
-        body = panes.equation_body(eq, self.two_d, width)
-        return panes.equation_prompt(eq, mark, self.selected_part, body)
-
     def _refresh_parts(self) -> None:
         if self.system is None:
             return
-        tied = self.tied_parts()
-        prompts = []
-        for p in self.system.circuit.parts:
-            mark = panes.MARK if p.id == self.selected_part else (panes.TIED if p.id in tied else " ")
-            prompts.append(panes.part_prompt(p, mark))
+        prompts = panes.part_prompts(self.system.circuit.parts, self.selected_part, self.tied_parts())
         lst = self.query_one("#parts-list", OptionList)
         for i, text in enumerate(prompts):
             if i >= len(self._part_prompts) or self._part_prompts[i] != text:

@@ -57,8 +57,9 @@ async def test_reload_shows_the_diff_and_marks_changed_equations(kiln):
         assert any("[KCL at inv]" in p for p in prompts(app, "#equation-list"))
         pane = app.query_one(StepsPane)
         assert "KCL at inv" in pane.changed_labels
-        pane.selected_eq = None                      # not the selected one: it shows the changed mark
-        assert pane._eq_prompt(0).startswith(f"{panes.CHANGED} [KCL at inv]")
+        pane.select_equation(None)                   # not the selected one: it shows the changed mark
+        await pilot.pause()
+        assert prompts(app, "#equation-list")[0].startswith(f"{panes.CHANGED} [KCL at inv]")
 
 
 async def test_reload_without_changes_in_the_results_says_so(kiln):

@@ -1,0 +1,149 @@
+"""The workbench's first screen, printed by a child process while the workbench imports Textual.
+
+Opening the workbench costs two large imports: SymPy with the engine (about 0.45 s on the
+development machine) and Textual (about 0.25 s). One after the other, the first screen came up
+near a second after the command started. So ``nodeterm [FILE]`` starts a child process (:func:`start`,
+running :func:`main`) that loads the circuit, writes the procedure and prints
+the text of the first screen -- step 1 with its equations and parts, the status and warnings
+lines -- while the parent imports Textual; both imports run at once on two cores.
+The parent draws that text, then imports the engine itself, loads the file into its session and
+asks for the solve (solve after). Keys pressed meanwhile wait and run in order (:mod:`.app`).
+
+The text is printed by the same functions of :mod:`nodeterm.present.panes` the panes use, so the
+session's own drawing replaces it without a visible change. A file that does not load is reported
+by the child before the screen opens (the command prints the same one-line message and exits 2).
+When no child can be started, or it fails, the parent loads the file itself as before.
+
+This module never imports Textual, and imports the engine only in the child.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import subprocess
+import sys
+from dataclasses import asdict, dataclass
+
+from nodeterm.engine.errors import InputError
+
+
+@dataclass(frozen=True)
+class FirstScreen:
+    """The text of the workbench's first screen (plain strings: nothing to unpickle, no SymPy)."""
+
+    path: str                            # the file, as the session will open it
+    step_head: str                       # step 1's head line and its text
+    step_text: str
+    steps: int                           # how many steps the procedure has
+    equations: tuple[str, ...]           # step 1's equations, the first one selected
+    parts: tuple[tuple[str, str], ...]   # (part id, prompt) of the parts list
+    value_count: int                     # values substituted (none yet: the status line says symbolic)
+    warnings: str                        # the line under the status line ("" when none)
+
+
+class Refused(InputError):
+    """The file does not load: its one-line message as the child printed it."""
+
+    def __init__(self, text: str) -> None:
+        super().__init__(text)
+        self.text = text
+
+    def __str__(self) -> str:
+        return self.text
+
+
+def compute(path: str) -> FirstScreen:
+    """Load ``path``, write its procedure and print the first screen (imports the engine).
+
+    Raises:
+        InputError: the file does not load.
+    """
+    from nodeterm.engine.circuit.loader import load_circuit
+    from nodeterm.engine.study import Study
+    from nodeterm.present import panes
+    system = Study(load_circuit(path)).system
+    circuit = system.circuit
+    step = system.steps[0]
+    selected = 0 if step.equations else None
+    tied = panes.equation_parts(step.equations[0]) if step.equations else ()
+    return FirstScreen(
+        path=path,
+        step_head=panes.step_heading(0, len(system.steps), step),
+        step_text=panes.step_text(step),
+        steps=len(system.steps),
+        equations=tuple(panes.equation_prompts(step, selected, None)),
+        parts=tuple(zip([p.id for p in circuit.parts], panes.part_prompts(circuit.parts, None, tied))),
+        value_count=len(system.values),
+        warnings=panes.warnings_line(system.warnings),
+    )
+
+
+class Pending:
+    """The child at work; :meth:`result` waits for its answer."""
+
+    def __init__(self, proc: subprocess.Popen) -> None:
+        self.proc = proc
+
+    def result(self) -> FirstScreen | None:
+        """The first screen, or None when the child failed (the caller then loads the file itself).
+
+        Raises:
+            Refused: the file does not load (an InputError with the child's one-line message).
+        """
+        try:
+            out, err = self.proc.communicate()
+        except BaseException:
+            self.proc.kill()
+            self.proc.wait()
+            raise
+        try:
+            answer = json.loads(out.decode("utf-8").strip().splitlines()[-1])
+        except (ValueError, IndexError, UnicodeDecodeError):
+            _log_failure(self.proc.returncode, err)
+            return None
+        if "refused" in answer:
+            raise Refused(answer["refused"])
+        screen = answer["screen"]
+        return FirstScreen(**{**screen, "equations": tuple(screen["equations"]),
+                              "parts": tuple(tuple(p) for p in screen["parts"])})
+
+
+def start(path: str | None) -> Pending | None:
+    """Start the child on ``path`` (the bundled demo when None); None when it cannot be started."""
+    if path is None:
+        from nodeterm.demos import demo_path
+        path = demo_path()
+    # the same nodeterm as this process, whatever the working directory holds (-P: nothing prepended)
+    root = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
+    code = f"import sys; sys.path.insert(0, {root!r}); from {__name__} import main; main(sys.argv[1:])"
+    try:
+        proc = subprocess.Popen([sys.executable, "-P", "-c", code, path], stdin=subprocess.DEVNULL,
+                                stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    except OSError:
+        return None
+    return Pending(proc)
+
+
+def _log_failure(status, err: bytes) -> None:
+    from nodeterm.ui.safety import logger
+    text = err.decode("utf-8", "replace").strip()
+    logger().warning("the first-screen process failed (exit status %s); the workbench loads the file "
+                     "itself\n%s", status, text)
+
+
+def main(argv: list[str]) -> int:
+    """In the child: print one JSON line, ``{"screen": ...}`` or ``{"refused": message}``."""
+    import gc
+    gc.disable()  # a short-lived process that frees little: no collector passes while importing SymPy
+    try:
+        answer = {"screen": asdict(compute(argv[0]))}
+    except InputError as err:
+        answer = {"refused": str(err)}
+    sys.stdout.write(json.dumps(answer) + "\n")
+    sys.stdout.flush()
+    os._exit(0)  # skip tearing down SymPy's caches: the parent is waiting for the exit
+
+
+if __name__ == "__main__":
+    sys.exit(main(sys.argv[1:]))

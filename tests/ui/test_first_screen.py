@@ -1,0 +1,198 @@
+"""The workbench's first screen, printed by a child process before the engine is imported here.
+
+What must hold (the design of :mod:`nodeterm.ui.first_screen`, no outside source):
+
+- the first screen is what the workbench draws for the same file once its session is open, so the
+  switch from one to the other changes nothing on screen;
+- keys pressed before the session is open are neither lost nor run early: they run in order once it is;
+- a file that does not load is refused with the same one-line message and exit status 2 as
+  ``nodeterm solve`` gives, before any screen, and without a traceback;
+- the command imports neither SymPy nor the engine before the first screen is drawn.
+"""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+import threading
+
+import pytest
+
+from nodeterm.demos import demo_path
+from nodeterm.ui import first_screen
+from nodeterm.ui.app import Workbench
+from wb_helpers import prompts, settle, text_of
+
+SIZE = (80, 24)
+DEMOS = ("kiln_preamp.toml", "greenhouse_loop.toml", "vibration_lowpass.toml", "oxygen_cell_diffamp.toml",
+         "fan_booster.toml", "strain_bridge_ina.toml")
+
+
+def screen_lines(app) -> dict:
+    """What the steps pane, the status and the warnings lines show."""
+    return {"head": text_of(app, "#step-head"), "text": text_of(app, "#step-text"),
+            "equations": prompts(app, "#equation-list"), "parts": prompts(app, "#parts-list"),
+            "warnings": text_of(app, "#warnings"), "status": text_of(app, "#status")}
+
+
+class HeldSession:
+    """Holds the workbench's session in its worker thread until :meth:`release` (so a test sees the
+    first screen as it is before the engine is ready)."""
+
+    def __init__(self, monkeypatch) -> None:
+        self.gate = threading.Event()
+        original = Workbench._open_session
+
+        def held(app, path):
+            self.gate.wait(30)
+            original(app, path)
+        monkeypatch.setattr(Workbench, "_open_session", held)
+
+    def release(self) -> None:
+        self.gate.set()
+
+
+def idle_status(text: str) -> str:
+    return text.split(" | BUSY")[0]
+
+
+@pytest.mark.parametrize("name", DEMOS)
+async def test_first_screen_is_what_the_open_session_draws(name, monkeypatch):
+    path = demo_path(name)
+    first = first_screen.compute(path)
+    app = Workbench(path, poll=False)
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(pilot, app)
+        session = screen_lines(app)
+    held = HeldSession(monkeypatch)
+    with_first = Workbench(path, poll=False, first=first)
+    async with with_first.run_test(size=SIZE) as pilot:
+        await pilot.pause(0.1)
+        assert not with_first.session.loaded
+        before = screen_lines(with_first)  # drawn from the child's text, before the session is open
+        held.release()
+        await settle(pilot, with_first)
+        for _ in range(100):
+            if with_first.session.loaded:
+                break
+            await pilot.pause(0.05)
+        await settle(pilot, with_first)
+        after = screen_lines(with_first)
+    for key in ("head", "text", "equations", "parts", "warnings"):
+        assert before[key] == session[key], key
+        assert after[key] == session[key], key
+    assert idle_status(before["status"]) == idle_status(session["status"])
+    assert "step 1/" in before["status"]
+
+
+async def test_keys_pressed_before_the_session_opens_run_in_order_once_it_is(monkeypatch):
+    held = HeldSession(monkeypatch)
+    path = demo_path("kiln_preamp.toml")
+    app = Workbench(path, poll=False, first=first_screen.compute(path))
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.pause(0.2)
+        assert "Step 1 of 5" in text_of(app, "#step-head")
+        assert not app.session.loaded
+        await pilot.press("n", "n", "k", "5")         # two steps on, every known value, results pane
+        await pilot.pause(0.1)
+        assert "Step 1 of 5" in text_of(app, "#step-head") and app.query_one("#panes").active == "steps"
+        held.release()
+        await settle(pilot, app)
+        for _ in range(100):
+            if app.query_one("#panes").active == "results":
+                break
+            await pilot.pause(0.05)
+        await settle(pilot, app)
+        assert app.query_one("#panes").active == "results"
+        assert app.session.done() == ["all known values"]
+        # the inverting preamp with its file values: gain = -Rf/Rin = -Gain = -100 (common practice)
+        assert "gain = -100" in text_of(app, "#results-text")
+        await pilot.press("u", "2")                   # and the keys work as usual afterwards
+        assert app.session.done() == []
+
+
+async def test_a_file_that_no_longer_loads_when_the_session_opens_is_reported_on_screen(tmp_path, monkeypatch):
+    path = tmp_path / "stage.toml"
+    path.write_text(open(demo_path("kiln_preamp.toml"), encoding="utf-8").read(), encoding="utf-8")
+    first = first_screen.compute(str(path))
+    path.write_text("[parts]\nR1 = { kind = \"resistor\", nodes = [\"a\", \"gnd\"], value = \"Rx\" }\n")
+    app = Workbench(str(path), poll=False, first=first)
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(pilot, app)
+        for _ in range(100):
+            if app.held is None:
+                break
+            await pilot.pause(0.05)
+        assert app.held is None and not app.session.loaded
+        assert "Rx" in text_of(app, "#problem")
+        await pilot.press("n", "q")                   # the app stays up and quits cleanly
+
+
+def run_command(*args: str) -> subprocess.CompletedProcess:
+    return subprocess.run([sys.executable, "-m", "nodeterm", *args], capture_output=True, text=True,
+                          stdin=subprocess.DEVNULL, timeout=120)
+
+
+@pytest.mark.parametrize("body", [
+    "[parts]\nR1 = { kind = \"resistor\", nodes = [\"a\", \"gnd\"], value = \"2*Rx\" }\n",   # unknown name
+    "[parts]\nR1 = { kind = \"resistor\", nodes = [\"a\", \"gnd\"], value = 0 }\n",          # zero resistor
+    "[parts\n",                                                                              # TOML syntax
+])
+def test_a_bad_file_is_refused_before_the_screen_as_solve_refuses_it(tmp_path, body):
+    path = tmp_path / "bad.toml"
+    path.write_text(body, encoding="utf-8")
+    workbench = run_command(str(path))
+    solve = run_command("solve", str(path))
+    assert workbench.returncode == 2 and solve.returncode == 2
+    assert workbench.stdout == ""                          # no screen was drawn
+    assert workbench.stderr == solve.stderr                # the same one-line message
+    assert workbench.stderr.startswith(f"nodeterm: {path}:") and workbench.stderr.count("\n") == 1
+    assert "Traceback" not in workbench.stderr
+
+
+def test_a_missing_file_is_refused_with_exit_status_2(tmp_path):
+    gone = run_command(str(tmp_path / "gone.toml"))
+    assert gone.returncode == 2 and "no such file" in gone.stderr and "Traceback" not in gone.stderr
+
+
+def test_without_the_child_process_the_command_loads_the_file_itself(tmp_path, monkeypatch, capsys):
+    from nodeterm import cli
+    path = tmp_path / "bad.toml"
+    path.write_text("[parts]\nR1 = { kind = \"resistor\", nodes = [\"a\", \"gnd\"], value = \"2*Rx\" }\n")
+    monkeypatch.setattr(first_screen, "start", lambda p: None)          # no process can be started
+    assert cli.main([str(path)]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith(f"nodeterm: {path}:2:") and "Rx" in err
+
+
+def test_a_child_that_fails_gives_no_first_screen_and_is_logged(cache_home):
+    proc = subprocess.Popen([sys.executable, "-c", "import sys; sys.stderr.write('boom'); sys.exit(3)"],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    assert first_screen.Pending(proc).result() is None
+    log = (cache_home / "nodeterm" / "workbench.log").read_text()
+    assert "exit status 3" in log and "boom" in log
+
+
+def test_the_child_prints_the_first_screen_of_the_bundled_demo():
+    got = first_screen.start(None).result()
+    assert got == first_screen.compute(demo_path())
+    assert got.steps == 5 and got.step_head.startswith("Step 1 of 5")
+
+
+def test_the_command_imports_no_sympy_before_the_first_screen():
+    """Everything the parent imports before drawing the first screen (the command line, the workbench,
+    the first screen) stays clear of SymPy, NumPy and the engine's heavy modules."""
+    code = ("import sys\n"
+            "import nodeterm.cli, nodeterm.ui.app, nodeterm.ui.first_screen, nodeterm.present.panes\n"
+            "heavy = [m for m in ('sympy', 'numpy', 'flint', 'nodeterm.engine.circuit.loader',\n"
+            "                     'nodeterm.engine.study', 'nodeterm.present.format') if m in sys.modules]\n"
+            "print(heavy)\n"
+            "sys.exit(1 if heavy else 0)\n")
+    run = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
+    assert run.returncode == 0, run.stdout + run.stderr
+
+
+def test_every_subcommand_is_known_without_importing_it():
+    from nodeterm import cli
+    assert set(cli.COMMAND_NAMES) == set(cli.commands())
+
