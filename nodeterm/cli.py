@@ -12,7 +12,6 @@ draws its first screen before the engine is imported in this process (:mod:`node
 
 from __future__ import annotations
 
-import argparse
 import gc
 import os
 import sys
@@ -22,9 +21,6 @@ import sys
 # passes take 10-15 % off loading a 10,000-part file and off big exact results, at the same peak
 # memory (measured with benchmarks/records.py). Set before the heavy imports.
 gc.set_threshold(100_000, 50, 100)
-
-from nodeterm.engine.budget import OutOfBudget, budget  # noqa: E402 - light (no SymPy)
-from nodeterm.engine.errors import InputError  # noqa: E402 - light (no SymPy)
 
 COMMAND_NAMES = ("solve", "check", "export", "response", "real", "limits", "sensitivity", "tolerance", "diff")
 """Every subcommand (the keys of :data:`COMMANDS`, known without importing the subcommand modules)."""
@@ -89,6 +85,7 @@ def __getattr__(name: str):
 
 
 def build_parser() -> argparse.ArgumentParser:
+    import argparse
     from nodeterm import cli_analysis, cli_audit, cli_diff
     from nodeterm.cli_common import add_common
     parser = argparse.ArgumentParser(
@@ -110,15 +107,17 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-def open_workbench(path: str | None) -> int:
+def open_workbench(path: str | None, pending=None) -> int:
     """Open the workbench on ``path`` (the bundled demo when None); a file that does not load is
     reported (InputError) before the screen opens.
 
-    A child process loads the file and prints the first screen's text while this process imports
-    Textual (:mod:`nodeterm.ui.first_screen`); without it, the file is loaded here first.
+    A child process (``pending``, else started here) loads the file and prints the first screen's
+    text while this process imports Textual (:mod:`nodeterm.ui.first_screen`); without it, the
+    file is loaded here first.
     """
-    from nodeterm.ui import first_screen
-    pending = first_screen.start(path)
+    if pending is None:
+        from nodeterm.ui import first_screen
+        pending = first_screen.start(path)
     from nodeterm.ui.app import run  # Textual is imported only here
     first = pending.result() if pending is not None else None  # raises InputError for a bad file
     if first is None and path is not None:
@@ -129,14 +128,21 @@ def open_workbench(path: str | None) -> int:
 
 def main(argv: list[str] | None = None) -> int:
     argv = list(sys.argv[1:] if argv is None else argv)
+    workbench = not argv or (argv[0] not in COMMAND_NAMES and argv[0] not in ("-h", "--help", "--version")
+                             and not argv[0].startswith("-"))
+    pending = None
+    if workbench and len(argv) <= 1:  # the first screen's process starts before anything else is imported
+        from nodeterm.ui import first_screen
+        pending = first_screen.start(argv[0] if argv else None)
+    from nodeterm.engine.budget import OutOfBudget, budget  # light (no SymPy)
+    from nodeterm.engine.errors import InputError
     try:
-        if not argv or (argv[0] not in COMMAND_NAMES and argv[0] not in ("-h", "--help", "--version")
-                        and not argv[0].startswith("-")):
+        if workbench:
             if len(argv) > 1:
                 print(f"nodeterm: unexpected arguments {' '.join(argv[1:])!r}; "
                       "use 'nodeterm FILE' or 'nodeterm COMMAND ...' (see nodeterm --help)", file=sys.stderr)
                 return 2
-            return open_workbench(argv[0] if argv else None)
+            return open_workbench(argv[0] if argv else None, pending)
         if argv[0] == "--version":
             from nodeterm import __version__
             print(f"nodeterm {__version__}")

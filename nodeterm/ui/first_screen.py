@@ -19,7 +19,6 @@ This module never imports Textual, and imports the engine only in the child.
 
 from __future__ import annotations
 
-import json
 import os
 import subprocess
 import sys
@@ -60,9 +59,9 @@ def compute(path: str) -> FirstScreen:
         InputError: the file does not load.
     """
     from nodeterm.engine.circuit.loader import load_circuit
-    from nodeterm.engine.study import Study
+    from nodeterm.engine.equations.system import build_system
     from nodeterm.present import panes
-    system = Study(load_circuit(path)).system
+    system = build_system(load_circuit(path))  # what Study(circuit).system is before any substitution
     circuit = system.circuit
     step = system.steps[0]
     selected = 0 if step.equations else None
@@ -91,6 +90,7 @@ class Pending:
         Raises:
             Refused: the file does not load (an InputError with the child's one-line message).
         """
+        import json
         try:
             out, err = self.proc.communicate()
         except BaseException:
@@ -114,11 +114,13 @@ def start(path: str | None) -> Pending | None:
     if path is None:
         from nodeterm.demos import demo_path
         path = demo_path()
-    # the same nodeterm as this process, whatever the working directory holds (-P: nothing prepended)
+    # The child imports from the same places as this process: this nodeterm, then this sys.path (not
+    # the working directory). -S skips the site module (this sys.path already holds what it adds).
     root = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
-    code = f"import sys; sys.path.insert(0, {root!r}); from {__name__} import main; main(sys.argv[1:])"
+    paths = [root] + [p for p in sys.path if p and p != root]
+    code = f"import sys; sys.path[:] = {paths!r}; from {__name__} import main; main(sys.argv[1:])"
     try:
-        proc = subprocess.Popen([sys.executable, "-P", "-c", code, path], stdin=subprocess.DEVNULL,
+        proc = subprocess.Popen([sys.executable, "-S", "-c", code, path], stdin=subprocess.DEVNULL,
                                 stdout=subprocess.PIPE, stderr=subprocess.PIPE)
     except OSError:
         return None
@@ -135,6 +137,7 @@ def _log_failure(status, err: bytes) -> None:
 def main(argv: list[str]) -> int:
     """In the child: print one JSON line, ``{"screen": ...}`` or ``{"refused": message}``."""
     import gc
+    import json
     gc.disable()  # a short-lived process that frees little: no collector passes while importing SymPy
     try:
         answer = {"screen": asdict(compute(argv[0]))}
