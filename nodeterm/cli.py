@@ -119,11 +119,12 @@ def open_workbench(path: str | None, pending=None) -> int:
         from nodeterm.ui import first_screen
         pending = first_screen.start(path)
     from nodeterm.ui.app import run  # Textual is imported only here
-    first = pending.result() if pending is not None else None  # raises InputError for a bad file
-    if first is None and path is not None:
+    if pending is not None:
+        return run(path, pending=pending)  # raises InputError for a bad file, before the screen opens
+    if path is not None:
         from nodeterm.engine.circuit.loader import load_circuit
         load_circuit(path)  # a bad file is reported here, before the screen opens
-    return run(path, first)
+    return run(path)
 
 
 def main(argv: list[str] | None = None) -> int:

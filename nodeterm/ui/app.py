@@ -20,6 +20,7 @@ pane keys work from every pane except while typing in a box, which Esc leaves.
 
 from __future__ import annotations
 
+import asyncio
 import gc
 import os
 import time
@@ -39,7 +40,7 @@ from nodeterm.ui import solver_process, threads
 from nodeterm.ui.analysis_pane import AnalysisPane
 from nodeterm.ui.circuit_pane import CircuitPane
 from nodeterm.ui.claims_pane import ClaimsPane
-from nodeterm.ui.first_screen import FirstScreen
+from nodeterm.ui.first_screen import FirstScreen, Pending
 from nodeterm.ui.dialogs import DiffScreen, ConfirmScreen, ExportScreen, HelpScreen, PathScreen, ValueScreen
 from nodeterm.ui.keys import KEYS, help_text
 from nodeterm.ui.matrix_pane import MatrixPane
@@ -63,16 +64,20 @@ class Workbench(App):
     TITLE = "nodeterm"
     BINDINGS = [Binding(k.keys, k.action, k.shown or k.title, show=bool(k.shown)) for k in KEYS]
 
-    def __init__(self, path: str | None = None, poll: bool = True, first: FirstScreen | None = None) -> None:
+    def __init__(self, path: str | None = None, poll: bool = True, first: FirstScreen | None = None,
+                 pending: Pending | None = None) -> None:
         """``first``: the first screen's text, printed elsewhere (:mod:`.first_screen`) for ``path``;
-        drawn at once, while the engine is imported and the session opens ``first.path``."""
+        drawn at once, while the engine is imported and the session opens ``first.path``.
+        ``pending``: the process printing it, still at work (its answer is awaited in :meth:`on_load`)."""
         # NO_COLOR: the terminal's own colours with every colour removed, instead of greys in 256
         # colours (a third of the bytes of every redraw over SSH)
         self.plain = os.environ.get("NO_COLOR") is not None
         super().__init__(ansi_color=True if self.plain else None)
         self.first = first
-        self.held: list[events.Key] | None = [] if first is not None else None  # keys waiting for the session
-        if first is None:
+        self.pending = pending
+        self.refused: InputError | None = None  # why the file was refused before any screen
+        self.held: list[events.Key] | None = [] if first or pending else None  # keys waiting for the session
+        if first is None and pending is None:
             solver_process.start_server()  # before Textual takes over sys.stderr
         else:
             solver_process.start_tracker()  # before Textual takes over sys.stderr; the server after the first screen
@@ -117,6 +122,24 @@ class Workbench(App):
         yield TextView("", id="message")
         yield Footer()
 
+    async def on_load(self) -> None:
+        """Wait for the first screen's process here: Textual starts the terminal only after this
+        (its Load event comes before the driver), so the app's own start-up overlaps that process's
+        work, and a file it refuses ends the app before anything is drawn (:func:`run` raises it)."""
+        pending, self.pending = self.pending, None
+        if pending is None:
+            return
+        try:
+            self.first = await asyncio.to_thread(pending.result)
+            if self.first is None and self.start_path is not None:  # no first screen: load the file here
+                await asyncio.to_thread(_check_loads, self.start_path)
+        except InputError as err:
+            self.refused = err
+            self.exit(return_code=2)
+            return
+        if self.first is None:
+            self.held = None
+
     def on_mount(self) -> None:
         if self.plain:
             self.theme = "ansi-dark"
@@ -132,6 +155,7 @@ class Workbench(App):
             self._show_first(self.first)
             self.call_after_refresh(self._after_first_screen)
         else:
+            solver_process.start_server()  # (started already unless a first screen was awaited)
             self.open_path(self.start_path)
         self.query_one("#equation-list").focus()
 
@@ -881,10 +905,22 @@ class Workbench(App):
         yield SystemCommand("Theme", "Change the colour theme", self.action_change_theme)
 
 
-def run(path: str | None, first: FirstScreen | None = None) -> int:
+def _check_loads(path: str) -> None:
+    from nodeterm.engine.circuit.loader import load_circuit
+    load_circuit(path)
+
+
+def run(path: str | None, first: FirstScreen | None = None, pending: Pending | None = None) -> int:
     """Run the workbench on ``path`` (the bundled demo when None); returns the exit status.
 
-    ``first``: the first screen's text printed by :mod:`.first_screen` for that file, drawn at once."""
-    app = Workbench(path, first=first)
+    ``first``: the first screen's text printed by :mod:`.first_screen` for that file, drawn at once;
+    ``pending``: the process printing it, still at work.
+
+    Raises:
+        InputError: the file does not load (found before the terminal was touched).
+    """
+    app = Workbench(path, first=first, pending=pending)
     result = app.run()
+    if app.refused is not None:
+        raise app.refused
     return result if isinstance(result, int) else (app.return_code or 0)

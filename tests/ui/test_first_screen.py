@@ -196,3 +196,46 @@ def test_every_subcommand_is_known_without_importing_it():
     from nodeterm import cli
     assert set(cli.COMMAND_NAMES) == set(cli.commands())
 
+
+
+class NoAnswer:
+    """A first-screen process that failed (its result is None: the workbench loads the file itself)."""
+
+    def result(self):
+        return None
+
+
+async def test_the_workbench_waits_for_the_first_screen_process_before_its_screen():
+    path = demo_path("kiln_preamp.toml")
+    app = Workbench(path, poll=False, pending=first_screen.start(path))
+    async with app.run_test(size=SIZE) as pilot:
+        assert app.first is not None or app.session.loaded      # the answer came before the first frame
+        assert "Step 1 of 5" in text_of(app, "#step-head")
+        await pilot.press("n")                                  # held until the session is open, then run
+        for _ in range(100):
+            if "Step 2 of 5" in text_of(app, "#step-head"):
+                break
+            await pilot.pause(0.05)
+        assert "Step 2 of 5" in text_of(app, "#step-head")
+
+
+@pytest.mark.parametrize("pending", ["refusing", "failed"])
+def test_a_refused_file_ends_the_workbench_before_the_terminal_is_touched(tmp_path, pending, capfd):
+    from nodeterm.engine.errors import InputError
+    from nodeterm.ui.app import run
+    path = tmp_path / "bad.toml"
+    path.write_text("[parts]\nR1 = { kind = \"resistor\", nodes = [\"a\", \"gnd\"], value = \"2*Rx\" }\n")
+    waiting = first_screen.start(str(path)) if pending == "refusing" else NoAnswer()
+    with pytest.raises(InputError) as refused:
+        run(str(path), pending=waiting)
+    assert str(refused.value).startswith(f"{path}:2:") and "Rx" in str(refused.value)
+    assert capfd.readouterr() == ("", "")   # not a byte to the terminal: no screen was started
+
+
+async def test_without_a_first_screen_the_workbench_opens_the_file_as_before(kiln):
+    app = Workbench(str(kiln), poll=False, pending=NoAnswer())
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(pilot, app)
+        assert app.first is None and app.held is None and app.session.loaded
+        await pilot.press("n")
+        assert "Step 2 of 5" in text_of(app, "#step-head")
