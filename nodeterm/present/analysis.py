@@ -362,8 +362,11 @@ def histogram_plot(mc, bins: int = 20, width: int = 80, height: int = 16) -> str
         return fig.build()
 
 
-def warning_lines(warnings) -> list[str]:
-    return [f"warning [{w.code}]{' ' + w.part if w.part else ''}: {w.message}" for w in warnings]
+def warning_lines(warnings, width: int = 79) -> list[str]:
+    """``warning [code] part: message`` per warning, wrapped to ``width`` (continued indented)."""
+    from nodeterm.present.text import prose
+    return [line for w in warnings
+            for line in prose(w.message, "  ", f"warning [{w.code}]{' ' + w.part if w.part else ''}: ", width)]
 
 
 # --- JSON-ready data ----------------------------------------------------------------------------------

@@ -93,8 +93,15 @@ def warnings_line(warnings) -> str:
     return f"! {first}{more}"
 
 
-def warning_lines(warnings) -> list[str]:
-    return [f"! {getattr(w, 'message', w)}" for w in warnings]
+def warning_lines(warnings, width: int | None = None) -> list[str]:
+    """``! message`` per warning; with ``width``, wrapped to it (continued under the text)."""
+    if width is None:
+        return [f"! {getattr(w, 'message', w)}" for w in warnings]
+    from nodeterm.present.text import prose
+    out: list[str] = []
+    for w in warnings:
+        out += prose(str(getattr(w, "message", w)), "  ", "! ", width)
+    return out
 
 
 def circuit_lines(circuit, values: dict, warnings=(), width: int = 78) -> list[str]:
@@ -102,7 +109,7 @@ def circuit_lines(circuit, values: dict, warnings=(), width: int = 78) -> list[s
     c = circuit
     out = [c.title or "(untitled circuit)", f"file: {c.path or '-'}", ""]
     if warnings:
-        out += warning_lines(warnings) + [""]
+        out += warning_lines(warnings, width - 2) + [""]
     roles = node_roles(c)
     out.append(f"Reference node: {c.reference} (0 V)")
     out.append("Nodes: what meets at each (part.pin):")

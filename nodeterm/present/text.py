@@ -23,11 +23,11 @@ WIDTH = 79
 """Prose lines of the report are wrapped to this width (equations never are: they stay one line each)."""
 
 
-def prose(text: str, indent: str = "  ", first: str | None = None) -> list[str]:
-    """``text`` wrapped to :data:`WIDTH` columns (an 80-column terminal shows it without soft wraps)."""
+def prose(text: str, indent: str = "  ", first: str | None = None, width: int = WIDTH) -> list[str]:
+    """``text`` wrapped to ``width`` columns (an 80-column terminal shows it without soft wraps)."""
     import textwrap
     keep = text.replace(" = ", "\u00a0=\u00a0")  # an equation in the prose stays on one line
-    lines = textwrap.wrap(keep, WIDTH, initial_indent=indent if first is None else first,
+    lines = textwrap.wrap(keep, width, initial_indent=indent if first is None else first,
                           subsequent_indent=indent, break_long_words=False, break_on_hyphens=False)
     return [line.replace("\u00a0", " ") for line in lines] or [indent]
 

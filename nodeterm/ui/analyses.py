@@ -43,6 +43,6 @@ def analysis_lines(study) -> list[str]:
         _section("Op-amp output limits (rails, max_current)", limits),
         _section("Real op-amp model against the ideal one", real),
         _section("Normalized sensitivities (% change per % change of a parameter)", sensitivity),
-        _section("Cautions", lambda: show.warning_lines(study.warnings)),
+        _section("Cautions", lambda: show.warning_lines(study.warnings, 74)),
     ]
     return analysis_sections(sections, LINEAR_NOTE)
