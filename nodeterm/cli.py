@@ -174,6 +174,9 @@ def main(argv: list[str] | None = None) -> int:
         return 130
     except BrokenPipeError:
         return 0
+    except OSError as err:  # the output could not be written (a full disk, a closed terminal...)
+        print(f"nodeterm: error: could not write the output: {err.strerror or err}", file=sys.stderr)
+        return 2
 
 
 def entry() -> None:
@@ -191,7 +194,7 @@ def entry() -> None:
     for stream in (sys.stdout, sys.stderr):
         try:
             stream.flush()
-        except (BrokenPipeError, ValueError):  # the reader went away, or the stream is closed
+        except (OSError, ValueError):  # the reader went away, the disk is full, the stream is closed
             pass
     os._exit(code)
 

@@ -59,3 +59,14 @@ def test_exported_file_is_complete(tmp_path, fmt):
         json.loads(out.read_text())
     else:
         assert out.read_text().endswith("\n")
+
+
+def test_a_full_disk_gets_one_line_and_status_two():
+    # Writing to /dev/full fails with ENOSPC (Linux): one message, no traceback.
+    if not Path("/dev/full").exists():
+        pytest.skip("no /dev/full here")
+    with open("/dev/full", "w") as full:
+        proc = subprocess.run([sys.executable, "-m", "nodeterm", "solve", str(DEMOS[0])], stdout=full,
+                              stderr=subprocess.PIPE, text=True, timeout=300)
+    assert proc.returncode == 2
+    assert proc.stderr.startswith("nodeterm: error: could not write the output") and "Traceback" not in proc.stderr
