@@ -139,6 +139,9 @@ class Workbench(App):
             return
         if self.first is None:
             self.held = None
+        # The first screen's process has ended: the solver's server imports the engine on the other
+        # core while this one draws the screen, so the solve can start as soon as the session is open.
+        solver_process.start_server()
 
     def on_mount(self) -> None:
         if self.plain:
@@ -167,14 +170,17 @@ class Workbench(App):
         self._update_status()
 
     async def _after_first_screen(self) -> None:
-        """The first screen is drawn: mount the other panes, start the solver processes' server and
-        import the engine (the held keys wait until the session is open, so no pane shows before)."""
-        for name, widget in self.later:
-            await self.query_one(f"#{name}", TabPane).mount(widget(id=f"{name}-pane"))
-        self.later = []
+        """The first screen is drawn: start the solver processes' server, import the engine and open
+        the session in a worker thread, and mount the other panes meanwhile (the held keys wait until
+        the session is open, so no pane shows before)."""
+        self.panes_mounted = asyncio.Event()
         solver_process.start_server()
         self.run_worker(partial(self._open_session, self.first.path), thread=True, group="session",
                         description="importing the engine and opening the file")
+        for name, widget in self.later:
+            await self.query_one(f"#{name}", TabPane).mount(widget(id=f"{name}-pane"))
+        self.later = []
+        self.panes_mounted.set()
 
     def _open_session(self, path: str) -> None:
         """In a worker thread: import the engine and open ``path`` in a new session."""
@@ -188,8 +194,9 @@ class Workbench(App):
         self.call_from_thread(self._session_opened, session, None)
 
     @guarded
-    def _session_opened(self, session, error: BaseException | None) -> None:
+    async def _session_opened(self, session, error: BaseException | None) -> None:
         """The session is open (or could not open): show it, ask for the solve, run the held keys."""
+        await self.panes_mounted.wait()
         held, self.held = self.held or [], None
         try:
             if error is None:
