@@ -64,16 +64,86 @@ class LineCache:
         return "".join(out)
 
 
+_SEQUENCE = re.compile(r"\x1b(\[[0-?]*[ -/]*[@-~]|\][^\x07\x1b]*(\x07|\x1b\\)|[@-Z\\-_78c=>])")
+_SGR = re.compile(r"\x1b\[([0-9;:]*)m")
+_KEEPS_STYLE = re.compile(r"\x1b\[(\d*;\d*H|\?(?!104[789])[0-9;]*[hl])")  # cursor moves, modes (not the
+_DEFAULT_COLOURS = ("39", "49", "39;49", "49;39")                    # alternate screen's, which saves the style)
+_RESTORES_STYLE = re.compile(r"\x1b(8|\[\?104[789][hl])")
+
+
+class StyleCache:
+    """Sends a change of text style only where a character is drawn in a style other than the last one sent.
+
+    Textual writes every segment of a line as ``style, text, reset``: at 80x24 with ``NO_COLOR`` most
+    segments are ``ESC[39;49m`` (default colours) and ``ESC[0m``, more bytes than the text itself.
+    Here the style each character would be drawn in (the codes since the last reset) is worked out, and
+    codes are sent only before text or an erase whose style differs from what the terminal has; the
+    default colours right after a reset change nothing. Every character is drawn, and every erase done,
+    in the same style as before, and each write ends in the style the unfiltered stream ends in.
+    """
+
+    def __init__(self) -> None:
+        self.sent: tuple[str, ...] | None = ()  # codes in effect on the terminal since a reset; None: unknown
+        self.wanted: tuple[str, ...] = ()       # codes in effect in the unfiltered stream
+
+    def _want(self, params: str) -> None:
+        first, _, rest = params.partition(";")
+        if first in ("", "0"):
+            self.wanted = ()
+            if not rest:
+                return
+            params = rest
+        if not self.wanted and params in _DEFAULT_COLOURS:
+            return
+        self.wanted += (params,)
+
+    def _sync(self) -> str:
+        sent, wanted = self.sent, self.wanted
+        if sent == wanted:
+            return ""
+        self.sent = wanted
+        if sent is not None and wanted[:len(sent)] == sent:
+            return "".join(f"\x1b[{p}m" for p in wanted[len(sent):])
+        return "\x1b[0m" + "".join(f"\x1b[{p}m" for p in wanted)
+
+    def filter(self, data: str) -> str:
+        """``data`` with the style codes that change nothing left out."""
+        out = []
+        pos = 0
+        for m in _SEQUENCE.finditer(data):
+            if m.start() > pos:
+                out.append(self._sync() + data[pos:m.start()])
+            pos = m.end()
+            seq = m.group(0)
+            sgr = _SGR.fullmatch(seq)
+            if sgr:
+                self._want(sgr.group(1))
+            elif _KEEPS_STYLE.fullmatch(seq):
+                out.append(seq)
+            else:  # an erase or anything else: sent in the style it would have met
+                out.append(self._sync() + seq)
+                if seq == "\x1bc":  # the terminal reset: its style too
+                    self.sent = self.wanted = ()
+                elif _RESTORES_STYLE.fullmatch(seq):  # a saved style comes back: not known here
+                    self.sent = None
+        if pos < len(data):
+            out.append(self._sync() + data[pos:])
+        out.append(self._sync())
+        return "".join(out)
+
+
 def lean_driver(base):
-    """A subclass of the Textual driver ``base`` whose output goes through a :class:`LineCache`."""
+    """A subclass of the Textual driver ``base`` whose output goes through a :class:`LineCache`, then a
+    :class:`StyleCache`."""
 
     class LeanDriver(base):
         def __init__(self, *args, **kwargs) -> None:
             super().__init__(*args, **kwargs)
             self.line_cache = LineCache()
+            self.style_cache = StyleCache()
 
         def write(self, data: str) -> None:
-            super().write(self.line_cache.filter(data))
+            super().write(self.style_cache.filter(self.line_cache.filter(data)))
 
     LeanDriver.__name__ = f"Lean{base.__name__}"
     return LeanDriver
