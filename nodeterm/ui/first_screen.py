@@ -5,7 +5,8 @@ development machine) and Textual (about 0.25 s). One after the other, the first 
 near a second after the command started. So ``nodeterm [FILE]`` starts a child process (:func:`start`,
 running :func:`main`) that loads the circuit, writes the procedure and prints
 the text of the first screen -- step 1 with its equations and parts, the status and warnings
-lines -- while the parent imports Textual; both imports run at once on two cores.
+lines (less the op-amp feedback check: NumPy and its numbers, about 0.1 s; its warnings come with
+the session) -- while the parent imports Textual; both imports run at once on two cores.
 The parent draws that text, then imports the engine itself, loads the file into its session and
 asks for the solve (solve after). Keys pressed meanwhile wait and run in order (:mod:`.app`).
 
@@ -61,7 +62,9 @@ def compute(path: str) -> FirstScreen:
     from nodeterm.engine.circuit.loader import load_circuit
     from nodeterm.engine.equations.system import build_system
     from nodeterm.present import panes
-    system = build_system(load_circuit(path))  # what Study(circuit).system is before any substitution
+    # Study(circuit).system before any substitution, less the op-amp feedback check (NumPy): it
+    # changes neither step 1 nor the step count, and its warnings come when the session is open
+    system = build_system(load_circuit(path), check_feedback=False)
     circuit = system.circuit
     step = system.steps[0]
     selected = 0 if step.equations else None

@@ -36,7 +36,8 @@ once, in an order shuffled with a fixed seed): the verdict is given when the dra
 agree, and "depends-on-values" when they do not.
 
 Written by hand on NumPy: no library breaks op-amp loops; the matrix is the one
-:class:`nodeterm.engine.solving.numeric.NumericModel` builds for the circuit.
+:class:`nodeterm.engine.solving.numeric.NumericModel` builds for the circuit. NumPy is imported
+by the functions that use it, so writing a procedure without this check needs no NumPy.
 """
 
 from __future__ import annotations
@@ -44,7 +45,6 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-import numpy as np
 import sympy
 
 from nodeterm.engine.symbols import as_expr
@@ -89,6 +89,7 @@ class Feedback:
 
 def _numeric_values(circuit, values: dict | None, rng) -> list[dict]:
     """Parameter sets with every parameter a float: file values (overridden by ``values``), draws for the rest."""
+    import numpy as np
     resolved = dict(circuit.known_values())
     if values:
         resolved.update({k: as_expr(v) for k, v in values.items()})
@@ -139,6 +140,7 @@ def _numeric_values(circuit, values: dict | None, rng) -> list[dict]:
 
 def _sigmas(circuit, numbers: dict) -> list[float]:
     """Real frequencies to examine: DC and a log grid around the circuit's own time scales."""
+    import numpy as np
     subs = {param(n): v for n, v in numbers.items() if v is not None}
     r, c, ell = [], [], []
     for p in circuit.parts:
@@ -159,6 +161,7 @@ def _sigmas(circuit, numbers: dict) -> list[float]:
 
 def _matrices(model, sigmas: list[float], subs: dict) -> np.ndarray:
     """The model's matrix at every real s in ``sigmas``, stacked (K, n, n); ``subs`` gives every parameter a number."""
+    import numpy as np
     n, K = model.size, len(sigmas)
     sig = np.asarray(sigmas, dtype=float)
     coef = np.zeros((len(model.coefficients), K))
@@ -183,6 +186,7 @@ def _matrices(model, sigmas: list[float], subs: dict) -> np.ndarray:
 
 def _rational_in_s(e: sympy.Expr, sig: np.ndarray) -> np.ndarray:
     """A coefficient that is a rational function of s (s*C, 1/(s*L)...), evaluated at every sigma."""
+    import numpy as np
     num, den = sympy.fraction(sympy.together(e))
     try:
         pn = [float(c) for c in sympy.Poly(num, s).all_coeffs()]
@@ -204,6 +208,7 @@ def _betas(model, opamps, sigmas: list[float], subs: dict) -> dict[str, list[tup
     Where M is singular, or z[out] = 0 (the loop runs through another ideal op-amp), each
     op-amp's driven matrix is solved on its own (the other op-amps at finite gain if need be).
     """
+    import numpy as np
     Ms = _matrices(model, sigmas, subs)
     K, n = Ms.shape[0], Ms.shape[1]
     nidx, bidx = model.node_index, model.branch_index
@@ -243,6 +248,7 @@ def _betas(model, opamps, sigmas: list[float], subs: dict) -> dict[str, list[tup
 
 def _solve_batch(Ms: np.ndarray, E: np.ndarray) -> np.ndarray:
     """Solve Ms[k] Z[k] = E for every k after row and column scaling; NaN where Ms[k] is (nearly) singular."""
+    import numpy as np
     K, n = Ms.shape[0], Ms.shape[1]
     Z = np.full((K, n, E.shape[1]), np.nan)
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -277,6 +283,7 @@ def _solve_scaled(M: np.ndarray, b: np.ndarray) -> np.ndarray | None:
     Conductances (1e-6 S) and gains (1e6) sit in one matrix; scaling first lets the
     condition number tell a singular loop from a badly scaled one.
     """
+    import numpy as np
     r = np.max(np.abs(M), axis=1)
     if np.any(r == 0):
         return None
@@ -399,6 +406,7 @@ def opamp_feedback(circuit, values: dict | None = None) -> dict[str, Feedback]:
     >>> opamp_feedback(parse_circuit(swapped))["U1"].kind
     'positive'
     """
+    import numpy as np
     opamps = [p for p in circuit.parts if p.kind == "opamp"]
     if not opamps:
         return {}
