@@ -117,7 +117,7 @@ def open_workbench(path: str | None, pending=None) -> int:
     """
     if pending is None:
         from nodeterm.ui import first_screen
-        pending = first_screen.start(path)
+        pending = first_screen.start(path, first_screen.results_width())
     from nodeterm.ui.app import run  # Textual is imported only here
     if pending is not None:
         return run(path, pending=pending)  # raises InputError for a bad file, before the screen opens
@@ -134,7 +134,7 @@ def main(argv: list[str] | None = None) -> int:
     pending = None
     if workbench and len(argv) <= 1:  # the first screen's process starts before anything else is imported
         from nodeterm.ui import first_screen
-        pending = first_screen.start(argv[0] if argv else None)
+        pending = first_screen.start(argv[0] if argv else None, first_screen.results_width())
     from nodeterm.engine.budget import OutOfBudget, budget  # light (no SymPy)
     from nodeterm.engine.errors import InputError
     try:

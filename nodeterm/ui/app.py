@@ -141,6 +141,8 @@ class Workbench(App):
             return
         if self.first is None:
             self.held = None
+        else:
+            self.first_process = pending  # it may go on to print the results (first_screen.early_results)
         # The first screen's process has ended: the solver's server imports the engine on the other
         # core while this one draws the screen, so the solve can start as soon as the session is open.
         solver_process.start_server()
@@ -179,10 +181,62 @@ class Workbench(App):
         solver_process.start_server()
         self.run_worker(partial(self._open_session, self.first.path), thread=True, group="session",
                         description="importing the engine and opening the file")
+        process = getattr(self, "first_process", None)
+        if process is not None:
+            self.run_worker(partial(self._early_work, process), thread=True, group="early",
+                            description="results printed with the first screen")
         for name, widget in self.later:
             await self.query_one(f"#{name}", TabPane).mount(widget(id=f"{name}-pane"))
         self.later = []
         self.panes_mounted.set()
+        self._early_held_key()
+
+    def _early_work(self, process) -> None:
+        """In a worker thread: wait for the first screen's process to end; adopt the results it printed."""
+        got = process.early()
+        if got is not None:
+            self.call_from_thread(self._early_results, *got)
+
+    def _early_results(self, width: int, text: str) -> None:
+        """The Results pane's text of the opened file, printed by the first screen's process: kept for
+        the session's first entry (nothing substituted), which then does not wait for the solver."""
+        self.early = (("results", False, width), text)
+        self._install_early()
+        self._early_held_key()
+
+    def _early_held_key(self) -> None:
+        """The results key pressed first and held, before the results were there: show them now."""
+        if self.held and not self.session.loaded:
+            first, rest = self.held[0], self.held[1:]
+            self.held = []
+            self.held = rest if self._early_pane(first) else [first] + rest
+
+    def _install_early(self) -> None:
+        early = getattr(self, "early", None)
+        if early is None or not self.session.loaded:
+            return
+        entry = self.session.stack[0]
+        key, text = early
+        # only the file as opened (not reloaded since), nothing substituted
+        if entry.study is getattr(self, "opened_study", None) and not entry.study.choice.steps \
+                and key not in entry.texts:
+            entry.texts[key] = text
+            if entry is self.entry:
+                self._show_records(entry)
+                self._update_status()
+
+    def _early_pane(self, key: events.Key) -> bool:
+        """Before the session is open: the results key, pressed before any other, shows the results
+        the first screen's process printed (the session then keeps them). True when it did."""
+        early = getattr(self, "early", None)
+        mounted = getattr(self, "panes_mounted", None)
+        if early is None or self.held or mounted is None or not mounted.is_set():
+            return False
+        if not any(k.action == "pane('results')" and key.key in k.keys.split(",") for k in KEYS):
+            return False
+        self.query_one(ResultsPane).show_note(early[1])  # as _show_records shows a solution's text
+        self.show_pane("results")
+        return True
 
     def _open_session(self, path: str) -> None:
         """In a worker thread: import the engine and open ``path`` in a new session."""
@@ -204,6 +258,8 @@ class Workbench(App):
             if error is None:
                 self.session = session
                 self.first = None
+                self.opened_study = session.stack[0].study
+                self._install_early()  # before show_entry asks the solver for what the entry lacks
                 self.show_entry(step=0)
             else:
                 self._set_line("#problem", f"! {describe(error)}")
@@ -216,7 +272,7 @@ class Workbench(App):
     async def on_event(self, event: events.Event) -> None:
         """Until the session is open, keys are held (and run in order once it is); the mouse waits."""
         if self.held is not None and isinstance(event, events.InputEvent) and not event.is_forwarded:
-            if isinstance(event, events.Key):
+            if isinstance(event, events.Key) and not self._early_pane(event):
                 self.held.append(event)
             return
         await super().on_event(event)

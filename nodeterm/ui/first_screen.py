@@ -53,12 +53,20 @@ class Refused(InputError):
         return self.text
 
 
+EARLY_SECONDS = 1.0
+"""How long the child may go on solving for :func:`early_results` after printing the first screen."""
+
+
 def compute(path: str) -> FirstScreen:
     """Load ``path``, write its procedure and print the first screen (imports the engine).
 
     Raises:
         InputError: the file does not load.
     """
+    return _compute(path)[0]
+
+
+def _compute(path: str):
     from nodeterm.engine.circuit.loader import load_circuit
     from nodeterm.engine.equations.system import build_system
     from nodeterm.present import panes
@@ -78,7 +86,25 @@ def compute(path: str) -> FirstScreen:
         parts=tuple(zip([p.id for p in circuit.parts], panes.part_prompts(circuit.parts, None, tied))),
         value_count=len(system.values),
         warnings=panes.warnings_line(system.warnings),
-    )
+    ), system
+
+
+def early_results(system, width: int) -> str | None:
+    """The Results pane's text of the opened file (nothing substituted), when its solution is large.
+
+    A large solution's text is all the workbench ever receives of it (:mod:`.solver_process`), and
+    this process has the engine imported and the equations written already: printing the text here,
+    right after the first screen, spares waiting for the workbench's own import and the solver's
+    process server (a 9-section symbolic ladder's results came 1 s after the first screen). A small
+    solution is left to the usual way (the workbench also needs the solution itself).
+    """
+    from nodeterm.engine.solving.solve import solve_system
+    from nodeterm.present import panes
+    from nodeterm.ui.solver_process import _large
+    solution = solve_system(system)
+    if not _large(solution):
+        return None
+    return panes.results_text(system, solution, False, width, pretty=panes.pretty)
 
 
 class Pending:
@@ -90,30 +116,70 @@ class Pending:
     def result(self) -> FirstScreen | None:
         """The first screen, or None when the child failed (the caller then loads the file itself).
 
+        Reads the child's first line only: the child may go on printing the results (:meth:`early`).
+
         Raises:
             Refused: the file does not load (an InputError with the child's one-line message).
         """
         import json
         try:
-            out, err = self.proc.communicate()
+            line = self.proc.stdout.readline()
         except BaseException:
             self.proc.kill()
             self.proc.wait()
             raise
         try:
-            answer = json.loads(out.decode("utf-8").strip().splitlines()[-1])
-        except (ValueError, IndexError, UnicodeDecodeError):
+            answer = json.loads(line.decode("utf-8"))
+        except (ValueError, UnicodeDecodeError):
+            self.proc.kill()
+            _, err = self.proc.communicate()
             _log_failure(self.proc.returncode, err)
             return None
         if "refused" in answer:
+            self.proc.communicate()
             raise Refused(answer["refused"])
         screen = answer["screen"]
         return FirstScreen(**{**screen, "equations": tuple(screen["equations"]),
                               "parts": tuple(tuple(p) for p in screen["parts"])})
 
 
-def start(path: str | None) -> Pending | None:
-    """Start the child on ``path`` (the bundled demo when None); None when it cannot be started."""
+    def early(self) -> tuple[int, str] | None:
+        """Waits for the child to end: (width, Results pane text) when it printed them, else None."""
+        import json
+        try:
+            rest, _ = self.proc.communicate()
+        except (OSError, ValueError):
+            return None
+        for line in rest.decode("utf-8", "replace").splitlines():
+            try:
+                got = json.loads(line).get("results")
+            except (ValueError, AttributeError):
+                continue
+            if isinstance(got, dict) and isinstance(got.get("text"), str) and isinstance(got.get("width"), int):
+                return got["width"], got["text"]
+        return None
+
+    def stop(self) -> None:
+        """End the child (its results are no longer wanted)."""
+        if self.proc.poll() is None:
+            self.proc.kill()
+        try:
+            self.proc.communicate()
+        except (OSError, ValueError):
+            pass
+
+
+def results_width() -> int:
+    """The Results pane's text width at this terminal's size (:func:`nodeterm.ui.results_pane.text_width`)."""
+    import shutil
+    return max(30, shutil.get_terminal_size((80, 24)).columns - 2)
+
+
+def start(path: str | None, width: int | None = None) -> Pending | None:
+    """Start the child on ``path`` (the bundled demo when None); None when it cannot be started.
+
+    ``width``: also print the Results pane's text for that width when the solution is large
+    (:func:`early_results`)."""
     if path is None:
         from nodeterm.demos import demo_path
         path = demo_path()
@@ -123,7 +189,8 @@ def start(path: str | None) -> Pending | None:
     paths = [root] + [p for p in sys.path if p and p != root]
     code = f"import sys; sys.path[:] = {paths!r}; from {__name__} import main; main(sys.argv[1:])"
     try:
-        proc = subprocess.Popen([sys.executable, "-S", "-c", code, path], stdin=subprocess.DEVNULL,
+        proc = subprocess.Popen([sys.executable, "-S", "-c", code, path] + ([str(width)] if width else []),
+                                stdin=subprocess.DEVNULL,
                                 stdout=subprocess.PIPE, stderr=subprocess.PIPE)
     except OSError:
         return None
@@ -138,16 +205,30 @@ def _log_failure(status, err: bytes) -> None:
 
 
 def main(argv: list[str]) -> int:
-    """In the child: print one JSON line, ``{"screen": ...}`` or ``{"refused": message}``."""
+    """In the child: print one JSON line, ``{"screen": ...}`` or ``{"refused": message}``; with a
+    width (``argv[1]``), then ``{"results": {"width": ..., "text": ...}}`` when the solution is large."""
     import gc
     import json
     gc.disable()  # a short-lived process that frees little: no collector passes while importing SymPy
+    system = None
     try:
-        answer = {"screen": asdict(compute(argv[0]))}
+        screen, system = _compute(argv[0])
+        answer = {"screen": asdict(screen)}
     except InputError as err:
         answer = {"refused": str(err)}
     sys.stdout.write(json.dumps(answer) + "\n")
     sys.stdout.flush()
+    if system is not None and len(argv) > 1:
+        try:
+            from nodeterm.engine.budget import budget
+            width = int(argv[1])
+            with budget(EARLY_SECONDS):
+                text = early_results(system, width)
+            if text is not None:
+                sys.stdout.write(json.dumps({"results": {"width": width, "text": text}}) + "\n")
+                sys.stdout.flush()
+        except BaseException:  # noqa: BLE001 - a help only: the workbench solves as usual
+            pass
     os._exit(0)  # skip tearing down SymPy's caches: the parent is waiting for the exit
 
 

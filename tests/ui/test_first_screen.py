@@ -160,7 +160,7 @@ def test_without_the_child_process_the_command_loads_the_file_itself(tmp_path, m
     from nodeterm import cli
     path = tmp_path / "bad.toml"
     path.write_text("[parts]\nR1 = { kind = \"resistor\", nodes = [\"a\", \"gnd\"], value = \"2*Rx\" }\n")
-    monkeypatch.setattr(first_screen, "start", lambda p: None)          # no process can be started
+    monkeypatch.setattr(first_screen, "start", lambda p, w=None: None)  # no process can be started
     assert cli.main([str(path)]) == 2
     err = capsys.readouterr().err
     assert err.startswith(f"nodeterm: {path}:2:") and "Rx" in err
@@ -286,3 +286,62 @@ def test_the_first_screen_process_needs_no_numpy():
             "sys.exit(1 if 'numpy' in sys.modules or 'textual' in sys.modules else 0)\n")
     run = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
     assert run.returncode == 0, run.stdout + run.stderr
+
+
+LADDER_5 = "\n".join(
+    ['title = "Five-section symbolic RC ladder"', "[parameters]", 'Vin = ""']
+    + [f'R{k} = ""\nC{k} = ""' for k in range(1, 6)]
+    + ["[parts]", 'VS = { kind = "voltage_source", nodes = ["n0", "gnd"], value = "Vin" }']
+    + [f'RS{k} = {{ kind = "resistor", nodes = ["n{k - 1}", "n{k}"], value = "R{k}" }}\n'
+       f'CS{k} = {{ kind = "capacitor", nodes = ["n{k}", "gnd"], value = "C{k}" }}' for k in range(1, 6)]) + "\n"
+
+
+def results_pane_text(app) -> str:
+    return text_of(app, "#results-text")
+
+
+async def _wait(pilot, cond, seconds: float = 30.0) -> bool:
+    for _ in range(int(seconds / 0.05)):
+        if cond():
+            return True
+        await pilot.pause(0.05)
+    return cond()
+
+
+async def test_results_printed_with_the_first_screen_show_before_the_session_opens(tmp_path, monkeypatch):
+    # A large solution's Results text comes from the first screen's process; the results key pressed
+    # first shows it before the session is open, and it is the text the solver process gives
+    # (the reference: nodeterm.ui.solver_process._results on the opened file's study).
+    from nodeterm.engine.study import Study
+    from nodeterm.ui.solver_process import _results
+    path = tmp_path / "ladder5.toml"
+    path.write_text(LADDER_5)
+    gate = HeldSession(monkeypatch)
+    app = Workbench(str(path), poll=False, pending=first_screen.start(str(path), 78))
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("5")
+        assert await _wait(pilot, lambda: "V_n5" in results_pane_text(app))
+        assert not app.session.loaded                      # shown before the session is open
+        early = results_pane_text(app)
+        gate.release()
+        await settle(pilot, app, 60)
+        assert app.session.loaded and not app.held
+        want = _results(Study.from_file(str(path)), False, 78)
+        assert app.entry.texts[("results", False, 78)] == want   # the session kept them
+        assert results_pane_text(app) == early                 # and the pane did not change
+
+
+async def test_a_key_before_the_results_key_keeps_its_order(tmp_path, monkeypatch):
+    # n then 5 before the session is open: nothing runs early; n moves to step 2, then 5 shows the results.
+    path = tmp_path / "ladder5.toml"
+    path.write_text(LADDER_5)
+    gate = HeldSession(monkeypatch)
+    app = Workbench(str(path), poll=False, pending=first_screen.start(str(path), 78))
+    async with app.run_test(size=SIZE) as pilot:
+        await pilot.press("n", "5")
+        await pilot.pause(1.0)
+        assert "Step 1 of" in text_of(app, "#step-head") and "V_n5" not in results_pane_text(app)
+        gate.release()
+        await settle(pilot, app, 60)
+        assert await _wait(pilot, lambda: "V_n5" in results_pane_text(app))
+        assert "Step 2 of" in text_of(app, "#step-head")
