@@ -22,7 +22,7 @@ import pytest
 from nodeterm.demos import demo_path
 from nodeterm.ui import first_screen
 from nodeterm.ui.app import Workbench
-from wb_helpers import prompts, settle, text_of
+from wb_helpers import ladder, prompts, settle, text_of
 
 SIZE = (80, 24)
 DEMOS = ("kiln_preamp.toml", "greenhouse_loop.toml", "vibration_lowpass.toml", "oxygen_cell_diffamp.toml",
@@ -288,12 +288,7 @@ def test_the_first_screen_process_needs_no_numpy():
     assert run.returncode == 0, run.stdout + run.stderr
 
 
-LADDER_5 = "\n".join(
-    ['title = "Five-section symbolic RC ladder"', "[parameters]", 'Vin = ""']
-    + [f'R{k} = ""\nC{k} = ""' for k in range(1, 6)]
-    + ["[parts]", 'VS = { kind = "voltage_source", nodes = ["n0", "gnd"], value = "Vin" }']
-    + [f'RS{k} = {{ kind = "resistor", nodes = ["n{k - 1}", "n{k}"], value = "R{k}" }}\n'
-       f'CS{k} = {{ kind = "capacitor", nodes = ["n{k}", "gnd"], value = "C{k}" }}' for k in range(1, 6)]) + "\n"
+LADDER_5 = ladder(5)
 
 
 def results_pane_text(app) -> str:

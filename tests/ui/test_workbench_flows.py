@@ -13,7 +13,7 @@ from nodeterm.ui.app import Workbench
 from nodeterm.present.export import EXTENSIONS, FORMATS
 from nodeterm.ui.dialogs import ConfirmScreen, ExportScreen, HelpScreen, PathScreen, ValueScreen
 from nodeterm.ui.keys import KEYS
-from wb_helpers import prompts, settle, text_of
+from wb_helpers import ladder, prompts, settle, text_of
 
 SIZE = (80, 24)
 
@@ -325,12 +325,7 @@ async def test_analysis_pane_shows_transfer_function():
         assert "note:" in text
 
 
-LADDER_5 = "\n".join(
-    ['title = "Five-section symbolic RC ladder"', "[parameters]", 'Vin = ""']
-    + [f'R{k} = ""\nC{k} = ""' for k in range(1, 6)]
-    + ["[parts]", 'VS = { kind = "voltage_source", nodes = ["n0", "gnd"], value = "Vin" }']
-    + [f'RS{k} = {{ kind = "resistor", nodes = ["n{k - 1}", "n{k}"], value = "R{k}" }}\n'
-       f'CS{k} = {{ kind = "capacitor", nodes = ["n{k}", "gnd"], value = "C{k}" }}' for k in range(1, 6)]) + "\n"
+LADDER_5 = ladder(5)
 
 
 async def test_export_of_a_large_solution_runs_off_the_event_loop_and_writes_the_results(tmp_path):
