@@ -610,9 +610,9 @@ class LargeExpr:
     """A large exact result kept as polynomials: prints at once, becomes SymPy on demand.
 
     It stands in for a SymPy expression in :class:`~.solution.Solution`: ``str`` and SymPy's
-    printers give its canonical text (numerator and denominator collected in s), and
-    ``sympy.sympify(x)`` or any SymPy attribute (``x.subs``, ``x.free_symbols``...) builds and
-    caches the real expression. Arithmetic delegates to that expression.
+    printers give its canonical text (numerator and denominator collected in s), and ``as_expr(x)``
+    (SymPy's ``_sympy_`` hook) or any SymPy attribute (``x.subs``, ``x.free_symbols``...) builds
+    and caches the real expression. Arithmetic delegates to that expression.
     """
 
     is_large = True
